@@ -1,0 +1,67 @@
+"""Solver settings: one validated, hashable record for every solve (the ``solver:`` config block)."""
+from __future__ import annotations
+
+from dataclasses import asdict, dataclass
+
+from . import validate as v
+from .errors import InputError
+from .engine import ShootSettings
+
+METHODS = ("auto", "closed-form", "shooting")
+
+
+@dataclass(frozen=True)
+class SolverSettings:
+    """How a point is solved.
+
+    Parameters
+    ----------
+    method : {"auto", "closed-form", "shooting"}
+        ``auto`` picks each model kind's default (documented on the kind).
+    rtol : float
+        Relative tolerance of the ODE integration (absolute tolerance is effectively zero).
+    horizon_offset : float
+        Radial distance from the horizon where the series hands over to the integrator.
+    accept_error : float
+        A point is ``ok`` only if its estimated relative error (from a second solve with
+        tolerances 100 times tighter) and its field-equation residual are below this.
+    fd_step : float
+        Relative step of the central differences that give chi2 and cs2 on the shooting path.
+    """
+
+    method: str = "auto"
+    rtol: float = 1e-10
+    horizon_offset: float = 1e-8
+    accept_error: float = 1e-8
+    fd_step: float = 1e-4
+
+    @classmethod
+    def from_block(cls, block, key: str = "solver") -> "SolverSettings":
+        if block is None:
+            return cls()
+        v.mapping(block, key)
+        v.only_keys(block, {"method", "rtol", "horizon_offset", "accept_error", "fd_step"}, key)
+        method = block.get("method", "auto")
+        if method not in METHODS:
+            raise InputError(f"{key}.method", method, f"unknown method; known: {', '.join(METHODS)}")
+        out = cls(method=method)
+        vals = {}
+        for name in ("rtol", "horizon_offset", "accept_error", "fd_step"):
+            if name in block:
+                x = v.number(block[name], f"{key}.{name}", positive=True)
+                if x >= 1.0:
+                    raise InputError(f"{key}.{name}", block[name], "must be < 1")
+                vals[name] = x
+        if "rtol" in vals and vals["rtol"] < 1e-13:
+            raise InputError(f"{key}.rtol", block["rtol"], "must be >= 1e-13 (double precision limit)")
+        return cls(**{**asdict(out), **vals})
+
+    def with_method(self, method: str) -> "SolverSettings":
+        return SolverSettings(**{**asdict(self), "method": method})
+
+    def shoot_settings(self) -> ShootSettings:
+        return ShootSettings(rtol=self.rtol, atol=0.0, horizon_offset=self.horizon_offset)
+
+    def canonical(self) -> dict:
+        """Plain dict with sorted keys, for hashing and provenance."""
+        return dict(sorted(asdict(self).items()))

@@ -1,0 +1,48 @@
+"""Thermodynamic identities shared by every model (pure functions, no solving).
+
+Conventions: the pressure ``P(T, mu)`` is the thermodynamic potential (``Omega = -P``), so
+``s = dP/dT``, ``rho = dP/dmu``, and the Hessian of ``P`` holds the susceptibilities::
+
+    P_TT = ds/dT|_mu,   P_Tmu = ds/dmu|_T = drho/dT|_mu,   P_mumu = chi2 = drho/dmu|_T.
+"""
+from __future__ import annotations
+
+import numpy as np
+
+
+def cs2_from_hessian(T, mu, s, rho, P_TT, P_Tmu, P_mumu):
+    """Speed of sound squared ``(dP/d epsilon)`` at fixed ``s/rho``.
+
+    From ``dP = s dT + rho dmu`` and ``d epsilon = T ds + mu drho`` restricted to ``d(s/rho) = 0``::
+
+        cs2 = (s^2 P_mumu - 2 s rho P_Tmu + rho^2 P_TT) / ((T s + mu rho) (P_TT P_mumu - P_Tmu^2))
+
+    At ``mu = 0`` this is ``s / (T ds/dT)``.
+    """
+    det = P_TT * P_mumu - P_Tmu**2
+    num = s * s * P_mumu - 2.0 * s * rho * P_Tmu + rho * rho * P_TT
+    return num / ((T * s + mu * rho) * det)
+
+
+def hessian_from_jacobians(J_targets: np.ndarray, J_densities: np.ndarray):
+    """Hessian of ``P`` from derivatives of ``(T, mu)`` and ``(s, rho)`` along two directions.
+
+    Parameters
+    ----------
+    J_targets : array (2, 2)
+        ``[[dT/dq1, dT/dq2], [dmu/dq1, dmu/dq2]]`` for any two independent parameters ``q``
+        (horizon data, or one datum and the scaling of a conformal model).
+    J_densities : array (2, 2)
+        ``[[ds/dq1, ds/dq2], [drho/dq1, drho/dq2]]`` along the same directions.
+
+    Returns
+    -------
+    P_TT, P_Tmu, P_mumu, maxwell_mismatch
+        ``P_Tmu`` is the mean of ``ds/dmu`` and ``drho/dT``; ``maxwell_mismatch`` is their relative
+        difference (zero for exact thermodynamics, a consistency check of the solution).
+    """
+    H = np.asarray(J_densities, float) @ np.linalg.inv(np.asarray(J_targets, float))
+    s_mu, rho_T = H[0, 1], H[1, 0]
+    scale = max(abs(s_mu), abs(rho_T), 1e-300)
+    mismatch = abs(s_mu - rho_T) / scale if (s_mu or rho_T) else 0.0
+    return H[0, 0], 0.5 * (s_mu + rho_T), H[1, 1], mismatch

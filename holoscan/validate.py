@@ -1,0 +1,70 @@
+"""Validators for user input, in one place. Each raises :class:`~holoscan.errors.InputError`."""
+from __future__ import annotations
+
+import math
+from numbers import Integral, Real
+
+from .errors import InputError
+
+
+def number(value, key: str, *, positive: bool = False, nonneg: bool = False) -> float:
+    """A finite real number (bools rejected); optionally > 0 or >= 0."""
+    if isinstance(value, bool) or not isinstance(value, Real):
+        if isinstance(value, str):
+            try:
+                value = float(value)
+            except ValueError:
+                raise InputError(key, value, "must be a number") from None
+        else:
+            raise InputError(key, value, "must be a number")
+    x = float(value)
+    if not math.isfinite(x):
+        raise InputError(key, value, "must be finite (not NaN or infinite)")
+    if positive and not x > 0:
+        raise InputError(key, value, "must be > 0")
+    if nonneg and not x >= 0:
+        raise InputError(key, value, "must be >= 0")
+    return x
+
+
+def integer(value, key: str, *, minimum: int | None = None, maximum: int | None = None) -> int:
+    """An integer (bools and non-integral floats rejected) within optional bounds."""
+    if isinstance(value, bool):
+        raise InputError(key, value, "must be an integer")
+    if isinstance(value, Real) and not isinstance(value, Integral):
+        if not (math.isfinite(value) and float(value).is_integer()):
+            raise InputError(key, value, "must be an integer")
+        value = int(value)
+    if not isinstance(value, Integral):
+        raise InputError(key, value, "must be an integer")
+    if minimum is not None and value < minimum:
+        raise InputError(key, value, f"must be >= {minimum}")
+    if maximum is not None and value > maximum:
+        raise InputError(key, value, f"must be <= {maximum}")
+    return int(value)
+
+
+def text(value, key: str) -> str:
+    """A non-empty string."""
+    if not isinstance(value, str) or not value.strip():
+        raise InputError(key, value, "must be a non-empty string")
+    return value
+
+
+def mapping(value, key: str) -> dict:
+    if not isinstance(value, dict):
+        raise InputError(key, value, "must be a mapping of keys to values")
+    return value
+
+
+def only_keys(block: dict, allowed, key: str) -> None:
+    """Reject keys not in ``allowed`` (catches typos such as ``kapa_sq``)."""
+    for k in block:
+        if k not in allowed:
+            raise InputError(f"{key}.{k}", block[k], f"unknown key; allowed keys: {', '.join(sorted(allowed))}")
+
+
+def required(block: dict, name: str, key: str):
+    if name not in block:
+        raise InputError(f"{key}.{name}", None, "required key is missing")
+    return block[name]
