@@ -1,0 +1,17 @@
+"""holoscan: thermodynamics and phase structure of charged black branes in AdS.
+
+The physics core (models, bulk equations, numerical engine, thermodynamics) uses no files and no
+workflow engine. Public entry points are re-exported here.
+"""
+__version__ = "0.1.0"
+
+from .errors import InputError
+from .models import KINDS, RNModel, model_from_block, models_from_list
+from .point import solve_point
+from .result import OBSERVABLES, PointResult, Status
+from .settings import SolverSettings
+
+__all__ = [
+    "__version__", "InputError", "KINDS", "RNModel", "model_from_block", "models_from_list",
+    "solve_point", "OBSERVABLES", "PointResult", "Status", "SolverSettings",
+]

@@ -143,8 +143,8 @@ def solve_unsourced(brane: ChargedBrane, kappa_sq: float, T: float, mu: float, s
         problems.append(f"estimated error {err:.3g} > accept_error {settings.accept_error:g}")
     if not residual <= settings.accept_error:
         problems.append(f"field-equation residual {residual:.3g} > {settings.accept_error:g}")
-    if not target_mismatch <= 1e-12:
-        problems.append(f"target mismatch {target_mismatch:.3g}")
+    if not target_mismatch <= 1e-2 * settings.accept_error:
+        problems.append(f"target mismatch {target_mismatch:.3g} > accept_error / 100")
     status = Status.NOT_CONVERGED if problems else Status.OK
     message = "; ".join(problems) if problems else f"converged: {niter} root iterations, {cnt.shots} shots"
     return PointResult(

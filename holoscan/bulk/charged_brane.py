@@ -1,4 +1,4 @@
-"""Field equations of a planar charged black brane with an optional neutral scalar, in AdS_{d+1}.
+r"""Field equations of a planar charged black brane with an optional neutral scalar, in AdS_{d+1}.
 
 Action (L = 1)::
 

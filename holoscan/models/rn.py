@@ -1,4 +1,4 @@
-"""Model kind ``rn``: the planar Reissner-Nordstrom-AdS_{d+1} black brane (Einstein-Maxwell).
+r"""Model kind ``rn``: the planar Reissner-Nordstrom-AdS_{d+1} black brane (Einstein-Maxwell).
 
 Action (L = 1, mostly-plus signature)::
 
