@@ -40,6 +40,38 @@ def cmd_point(args) -> int:
     return 0
 
 
+def cmd_check(args) -> int:
+    from .scan.config import read_scan_config
+
+    cfg = read_scan_config(args.config)
+    print(f"config ok: scan '{cfg.scan}', {len(cfg.models)} model(s), {cfg.n_points} grid point(s)")
+    return 0
+
+
+def cmd_solve_chunk(args) -> int:
+    from .scan.chunk import StaleManifest, run_chunk
+
+    try:
+        n = run_chunk(args.manifest, args.out, log_file=args.log or "")
+    except StaleManifest as exc:
+        print(f"holoscan: error: {exc}", file=sys.stderr)
+        return 3
+    print(f"wrote {n} rows to {args.out}")
+    return 0
+
+
+def cmd_assemble(args) -> int:
+    from .scan.assemble import AssemblyError, assemble, summary_text
+
+    try:
+        summary = assemble(args.plan, args.out, args.summary, args.summary_text)
+    except AssemblyError as exc:
+        print(f"holoscan: error: {exc}", file=sys.stderr)
+        return 3
+    print(summary_text(summary, json.loads(open(args.plan).read())["scan"]), end="")
+    return 0
+
+
 def build_parser() -> argparse.ArgumentParser:
     p = argparse.ArgumentParser(prog="holoscan", description="Charged black-brane thermodynamics.")
     p.add_argument("--version", action="version", version=f"holoscan {__version__}")
@@ -51,6 +83,23 @@ def build_parser() -> argparse.ArgumentParser:
     pt.add_argument("--mu", required=True, type=float, help="chemical potential (any sign)")
     pt.add_argument("--method", choices=METHODS, help="solution method (default: the kind's own)")
     pt.set_defaults(func=cmd_point)
+
+    ck = sub.add_parser("check", help="validate a scan config and count its points")
+    ck.add_argument("--config", required=True)
+    ck.set_defaults(func=cmd_check)
+
+    sc = sub.add_parser("solve-chunk", help="(workflow) solve one chunk manifest into a sealed segment")
+    sc.add_argument("manifest")
+    sc.add_argument("--out", required=True)
+    sc.add_argument("--log", default="")
+    sc.set_defaults(func=cmd_solve_chunk)
+
+    asm = sub.add_parser("assemble", help="(workflow) assemble the table of a plan from its segments")
+    asm.add_argument("plan")
+    asm.add_argument("--out", required=True)
+    asm.add_argument("--summary", required=True)
+    asm.add_argument("--summary-text", default=None)
+    asm.set_defaults(func=cmd_assemble)
     return p
 
 

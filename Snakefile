@@ -1,0 +1,14 @@
+# holoscan workflow: (T, mu) scans of charged black branes into Parquet phase-diagram tables.
+# The rules live in workflow/rules/; this file only includes them.
+configfile: "config/config.yaml"
+
+
+include: "workflow/rules/common.smk"
+include: "workflow/rules/solve.smk"
+include: "workflow/rules/assemble.smk"
+
+
+rule all:
+    input:
+        get_final_targets(),
+    default_target: True

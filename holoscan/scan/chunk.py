@@ -1,0 +1,75 @@
+"""Solve one chunk manifest into a sealed segment. One bad point never stops the chunk."""
+from __future__ import annotations
+
+import json
+import os
+import socket
+import time
+import traceback
+from datetime import datetime, timezone
+from pathlib import Path
+
+import pyarrow.parquet as pq
+
+from .. import __version__
+from ..models import model_from_block
+from ..point import solve_point
+from ..result import Status
+from ..settings import SolverSettings
+from .identity import code_hash
+from .store import seal_segment
+from .tables import rows_to_table
+
+
+class StaleManifest(RuntimeError):
+    pass
+
+
+def _now() -> str:
+    return datetime.now(timezone.utc).isoformat(timespec="microseconds")
+
+
+def solve_manifest(manifest: dict, *, log_file: str = "", log=print) -> list[dict]:
+    """Rows (dicts in the table schema) for every point of ``manifest``."""
+    if manifest["code_hash"] != code_hash():
+        raise StaleManifest(f"manifest made with physics code {manifest['code_hash']}, this is {code_hash()}: "
+                            "the code changed after planning; run the workflow again to re-plan")
+    host = socket.gethostname()
+    models = {mid: (model_from_block(m["spec"], f"manifest.models.{mid}"), SolverSettings(**m["solver"]))
+              for mid, m in manifest["models"].items()}
+    rows = []
+    base = {"chunk_id": manifest["chunk"], "code_hash": manifest["code_hash"], "package_version": __version__,
+            "host": host, "log_file": log_file}
+    for mid, T, mu, key in manifest["points"]:
+        model, settings = models[mid]
+        start = _now()
+        t0 = time.perf_counter()
+        try:
+            results = [r.to_dict() for r in solve_point(model, T, mu, settings)]
+        except Exception as exc:  # a bug must not cost the other points: record it
+            results = [{"model_id": mid, "kind": model.kind, "d": getattr(model, "d", 0), "branch": 0, "T": T,
+                        "mu": mu, "status": Status.FAILED.value, "method": settings.method,
+                        "message": f"internal error: {type(exc).__name__}: {exc}", "wall_time": time.perf_counter() - t0}]
+            log(traceback.format_exc())
+        end = _now()
+        for r in results:
+            r["extra"] = json.dumps(r.get("extra", {}), sort_keys=True, default=str)
+            r.update(base, point_key=key, start_time=start, end_time=end, accept_error=settings.accept_error)
+            rows.append(r)
+        st = ", ".join(r["status"] for r in results)
+        log(f"{mid} T={T!r} mu={mu!r}: {st} ({time.perf_counter() - t0:.3f} s)")
+    return rows
+
+
+def run_chunk(manifest_path, out_path, log_file: str = "", log=print) -> int:
+    """Solve the manifest and write the sealed segment ``out_path``. Returns the number of rows."""
+    manifest = json.loads(Path(manifest_path).read_text())
+    rows = solve_manifest(manifest, log_file=log_file, log=log)
+    out = Path(out_path)
+    out.parent.mkdir(parents=True, exist_ok=True)
+    tmp = out.with_name(f".{out.name}.tmp-{os.getpid()}")
+    pq.write_table(rows_to_table(rows), tmp)
+    with open(tmp, "rb+") as fh:  # make the bytes durable before the rename publishes them
+        os.fsync(fh.fileno())
+    seal_segment(tmp, out, [p[3] for p in manifest["points"]], manifest["code_hash"])
+    return len(rows)

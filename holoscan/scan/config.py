@@ -1,0 +1,131 @@
+"""Validate a scan config (JSON schema, then holoscan's own physics rules) into a :class:`ScanConfig`.
+
+Structure is checked against ``workflow/schemas/config.schema.yaml``; model parameters, grid ranges
+and solver settings are then checked by the same validators the physics uses. Every failure is an
+:class:`~holoscan.errors.InputError` naming the key path (``models[1].grid.T.num``) and the value.
+"""
+from __future__ import annotations
+
+import json
+from dataclasses import dataclass
+from pathlib import Path
+
+import jsonschema
+import yaml
+
+from ..errors import InputError
+from ..models import model_from_block
+from ..point import resolve_method
+from ..settings import SolverSettings
+from .grid import grid_points
+
+#: keys of a model block that belong to the scan, not to the model kind
+SCAN_MODEL_KEYS = ("grid", "solver")
+
+
+def schema_path() -> Path:
+    """The scan config schema shipped with the workflow (repository layout)."""
+    return Path(__file__).resolve().parents[2] / "workflow" / "schemas" / "config.schema.yaml"
+
+
+def load_schema(path=None) -> dict:
+    return yaml.safe_load(Path(path or schema_path()).read_text())
+
+
+def _key(path) -> str:
+    out = ""
+    for p in path:
+        out += f"[{p}]" if isinstance(p, int) else (f".{p}" if out else str(p))
+    return out or "(top level)"
+
+
+_HINTS = {
+    "axis": "must be {min, max, num[, spacing]} or a non-empty list of numbers",
+}
+
+
+def _schema_error(err: jsonschema.ValidationError) -> InputError:
+    key = _key(err.absolute_path)
+    if err.validator == "additionalProperties":
+        extra = sorted(set(err.instance) - set(err.schema.get("properties", {})))
+        k = f"{key}.{extra[0]}" if key != "(top level)" else extra[0]
+        allowed = ", ".join(sorted(err.schema.get("properties", {})))
+        return InputError(k, err.instance[extra[0]], f"unknown key; allowed keys: {allowed}")
+    if err.validator == "required":
+        missing = err.message.split("'")[1] if "'" in err.message else err.message
+        k = f"{key}.{missing}" if key != "(top level)" else missing
+        return InputError(k, None, "required key is missing")
+    if err.validator == "oneOf":
+        if isinstance(err.instance, dict) and "T" in err.instance:
+            return InputError(key, err.instance, "give exactly one of 'mu' and 'mu_over_T'")
+        return InputError(key, err.instance, _HINTS["axis"])
+    msg = err.message
+    if len(msg) > 200:
+        msg = msg[:200] + "..."
+    return InputError(key, err.instance, msg)
+
+
+@dataclass(frozen=True)
+class ModelPlan:
+    """One model of a scan: the model, its solver settings and its (T, mu) points."""
+
+    model: object
+    settings: SolverSettings
+    points: tuple
+
+
+@dataclass(frozen=True)
+class ScanConfig:
+    scan: str
+    models: tuple  # of ModelPlan
+    points_per_job: int
+    max_jobs: int
+    raw: dict
+
+    @property
+    def n_points(self) -> int:
+        return sum(len(m.points) for m in self.models)
+
+    def canonical_json(self) -> str:
+        return json.dumps(self.raw, sort_keys=True, separators=(",", ":"), default=str)
+
+
+def validate_scan_config(doc, schema: dict | None = None) -> ScanConfig:
+    """Validate a parsed config document. Raises InputError on the first problem found."""
+    if not isinstance(doc, dict):
+        raise InputError("(top level)", doc, "the config must be a mapping of keys to values")
+    validator = jsonschema.Draft202012Validator(schema or load_schema())
+    err = jsonschema.exceptions.best_match(validator.iter_errors(doc))
+    if err is not None:
+        raise _schema_error(err)
+    default_solver = SolverSettings.from_block(doc.get("solver"), "solver")
+    plans, seen = [], set()
+    for i, block in enumerate(doc["models"]):
+        key = f"models[{i}]"
+        model = model_from_block({k: x for k, x in block.items() if k not in SCAN_MODEL_KEYS}, key)
+        if model.id in seen:
+            raise InputError(f"{key}.id", model.id, "duplicate model id")
+        seen.add(model.id)
+        settings = (SolverSettings.from_block(block["solver"], f"{key}.solver") if "solver" in block
+                    else default_solver)
+        settings = resolve_method(model, settings, f"{key}.solver.method" if "solver" in block else "solver.method")
+        if "grid" in block:
+            pts = grid_points(block["grid"], f"{key}.grid")
+        elif "grid" in doc:
+            pts = grid_points(doc["grid"], "grid")
+        else:
+            raise InputError(f"{key}.grid", None, "no grid: give a top-level 'grid' or one in the model block")
+        plans.append(ModelPlan(model, settings, tuple(pts)))
+    return ScanConfig(
+        scan=doc["scan"],
+        models=tuple(plans),
+        points_per_job=int(doc.get("points_per_job", 200)),
+        max_jobs=int(doc.get("max_jobs", 1000)),
+        raw=doc,
+    )
+
+
+def read_scan_config(path, key: str = "--config") -> ScanConfig:
+    from ..config import read_yaml
+
+    return validate_scan_config(read_yaml(path, key))

@@ -1,0 +1,96 @@
+"""Plan a scan: grid points -> point keys -> what is missing from the store -> chunks.
+
+A chunk is a list of missing points solved by one job. Its id is the hash of its sorted key list,
+so a chunk's name fixes its content: the same missing points always give the same chunk files, and
+a chunk's manifest never changes once written. Chunk size is ``points_per_job``, raised when needed
+so that one plan never has more than ``max_jobs`` chunks.
+
+The plan also writes ``plan/table-<hash>.json``: every point of the current config with its key and
+the chunk that holds (or will hold) it. Assembly reads only that file and the segments it names.
+"""
+from __future__ import annotations
+
+import hashlib
+import json
+import math
+from dataclasses import dataclass
+from pathlib import Path
+
+from .. import __version__
+from .config import ScanConfig
+from .identity import code_hash, config_hash, model_context, point_key
+from .store import atomic_write_text, index_store
+
+
+@dataclass(frozen=True)
+class Plan:
+    scan: str
+    root: Path  # results/<scan>
+    n_points: int
+    n_missing: int
+    chunk_ids: tuple  # new chunks to solve
+    segment_ids: tuple  # every segment the table needs (old and new)
+    table_file: Path  # plan/table-<hash>.json
+    plan_hash: str
+    quarantined: tuple
+    chunk_size: int
+
+    def manifest(self, chunk: str) -> Path:
+        return self.root / "plan" / f"{chunk}.json"
+
+    def segment(self, chunk: str) -> Path:
+        return self.root / "segments" / f"{chunk}.parquet"
+
+
+def _write_once(path: Path, text: str) -> None:
+    if not path.exists() or path.read_text() != text:
+        atomic_write_text(path, text)
+
+
+def make_plan(cfg: ScanConfig, results_dir="results", *, write: bool = True) -> Plan:
+    """Compute keys, compare with the store, pack missing points into chunks, write manifests.
+
+    With ``write=False`` nothing on disk changes (no manifests, no quarantine): used inside jobs.
+    """
+    root = Path(results_dir) / cfg.scan
+    code = code_hash()
+    chash = config_hash(cfg.canonical_json())
+    index = index_store(root / "segments", quarantine=write)
+    models, table, missing = {}, [], []
+    for mp in cfg.models:
+        spec, solver = mp.model.spec(), mp.settings.canonical()
+        models[mp.model.id] = {"spec": spec, "solver": solver}
+        ctx = model_context(spec, solver, code)
+        for T, mu in mp.points:
+            k = point_key(ctx, T, mu)
+            table.append([mp.model.id, T, mu, k])
+            if k not in index.where:
+                missing.append([mp.model.id, T, mu, k])
+    size = max(cfg.points_per_job, math.ceil(len(missing) / cfg.max_jobs)) if missing else cfg.points_per_job
+    chunk_of = dict(index.where)
+    new_chunks = []
+    for i in range(0, len(missing), size):
+        pts = missing[i:i + size]
+        cid = hashlib.sha256("\n".join(sorted(p[3] for p in pts)).encode()).hexdigest()[:16]
+        new_chunks.append((cid, pts))
+        for p in pts:
+            chunk_of[p[3]] = cid
+    rows = [[*p, chunk_of[p[3]]] for p in table]
+    plan_hash = hashlib.sha256(json.dumps(rows).encode()).hexdigest()[:16]
+    table_file = root / "plan" / f"table-{plan_hash}.json"
+    if write:
+        for cid, pts in new_chunks:
+            used = sorted({p[0] for p in pts})
+            manifest = {"scan": cfg.scan, "chunk": cid, "code_hash": code, "config_hash": chash,
+                        "package_version": __version__, "models": {m: models[m] for m in used}, "points": pts}
+            _write_once(root / "plan" / f"{cid}.json", json.dumps(manifest, sort_keys=True))
+        doc = {"scan": cfg.scan, "code_hash": code, "config_hash": chash, "config": cfg.raw,
+               "package_version": __version__, "models": models,
+               "model_order": [mp.model.id for mp in cfg.models],
+               "columns": ["model_id", "T", "mu", "point_key", "chunk"], "rows": rows}
+        _write_once(table_file, json.dumps(doc, sort_keys=True, default=str))
+    return Plan(
+        scan=cfg.scan, root=root, n_points=len(table), n_missing=len(missing),
+        chunk_ids=tuple(c for c, _ in new_chunks), segment_ids=tuple(sorted({r[4] for r in rows})),
+        table_file=table_file, plan_hash=plan_hash, quarantined=tuple(index.quarantined), chunk_size=size,
+    )

@@ -1,0 +1,103 @@
+"""The segment store of a scan: immutable Parquet segments, one per solved chunk.
+
+Layout under ``results/<scan>/segments/``: ``<chunk>.parquet`` (the rows) and ``<chunk>.json``
+(its seal: sha256 of the Parquet bytes, the point keys it holds, the code hash). A segment counts
+only when its seal exists and the checksum matches; anything else (missing seal, truncated or
+altered bytes, unreadable seal) is moved to ``results/<scan>/quarantine/`` and its points become
+missing again, so they are solved anew. Files are written under a temporary name in the same folder
+and renamed when complete (atomic on POSIX filesystems), seal before segment.
+"""
+from __future__ import annotations
+
+import hashlib
+import json
+import os
+import shutil
+from dataclasses import dataclass, field
+from pathlib import Path
+
+
+def sha256_file(path: Path) -> str:
+    h = hashlib.sha256()
+    with open(path, "rb") as fh:
+        for block in iter(lambda: fh.read(1 << 20), b""):
+            h.update(block)
+    return h.hexdigest()
+
+
+def atomic_write_bytes(path: Path, data: bytes) -> None:
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    tmp = path.with_name(f".{path.name}.tmp-{os.getpid()}")
+    with open(tmp, "wb") as fh:
+        fh.write(data)
+        fh.flush()
+        os.fsync(fh.fileno())
+    os.replace(tmp, path)
+
+
+def atomic_write_text(path: Path, text: str) -> None:
+    atomic_write_bytes(path, text.encode())
+
+
+def seal_path(segment: Path) -> Path:
+    return Path(segment).with_suffix(".json")
+
+
+def seal_segment(tmp_segment: Path, segment: Path, keys: list[str], code_hash: str) -> None:
+    """Rename a fully written temporary segment into place, with its seal written first."""
+    seal = {"sha256": sha256_file(tmp_segment), "keys": list(keys), "code_hash": code_hash,
+            "chunk": Path(segment).stem}
+    atomic_write_text(seal_path(segment), json.dumps(seal))
+    os.replace(tmp_segment, segment)
+
+
+@dataclass
+class StoreIndex:
+    """Which valid segment holds each point key, and what was quarantined."""
+
+    where: dict = field(default_factory=dict)  # key -> chunk id
+    quarantined: list = field(default_factory=list)  # (file name, reason)
+
+
+def _quarantine(seg_dir: Path, chunk: str, reason: str, index: StoreIndex) -> None:
+    qdir = seg_dir.parent / "quarantine"
+    qdir.mkdir(parents=True, exist_ok=True)
+    for p in (seg_dir / f"{chunk}.parquet", seg_dir / f"{chunk}.json"):
+        if p.exists():
+            shutil.move(str(p), str(qdir / p.name))
+    index.quarantined.append((chunk, reason))
+
+
+def index_store(seg_dir: Path, *, quarantine: bool = True) -> StoreIndex:
+    """Verify every segment in ``seg_dir`` and index the keys of the valid ones.
+
+    Where two valid segments hold the same key (possible after an interrupted run), the one with the
+    smaller chunk id wins, so the choice never depends on timing.
+    """
+    seg_dir = Path(seg_dir)
+    index = StoreIndex()
+    if not seg_dir.is_dir():
+        return index
+    chunks = sorted({p.stem for p in seg_dir.glob("*.parquet")} | {p.stem for p in seg_dir.glob("*.json")})
+    for chunk in chunks:
+        seg, seal = seg_dir / f"{chunk}.parquet", seg_dir / f"{chunk}.json"
+        reason = None
+        if not seg.exists():
+            reason = "seal without segment"
+        elif not seal.exists():
+            reason = "segment without seal"
+        else:
+            try:
+                meta = json.loads(seal.read_text())
+                if meta.get("sha256") != sha256_file(seg):
+                    reason = "checksum mismatch"
+            except (ValueError, OSError) as exc:
+                reason = f"unreadable seal: {exc}"
+        if reason:
+            if quarantine:
+                _quarantine(seg_dir, chunk, reason, index)
+            continue
+        for k in meta["keys"]:
+            index.where.setdefault(k, chunk)
+    return index

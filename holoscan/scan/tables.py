@@ -1,0 +1,88 @@
+"""Arrow schema of the phase-diagram tables, with each column's unit and meaning in field metadata.
+
+File-level metadata: one namespaced, versioned JSON key ``holoscan`` (see :func:`file_metadata`).
+"""
+from __future__ import annotations
+
+import json
+import math
+
+import pyarrow as pa
+
+SCHEMA_VERSION = "1.0"
+META_KEY = b"holoscan"
+
+F64, I64, STR = pa.float64(), pa.int64(), pa.string()
+
+#: (name, type, unit, meaning). Units: L = 1 and the boundary energy unit E; d = boundary dimension.
+COLUMNS = [
+    ("model_id", STR, "", "model id from the config"),
+    ("kind", STR, "", "model kind"),
+    ("d", I64, "", "boundary spacetime dimension (bulk AdS_{d+1})"),
+    ("branch", I64, "", "solution branch index at this (T, mu), 0 first"),
+    ("T", F64, "E", "temperature"),
+    ("mu", F64, "E", "chemical potential, A_t(boundary) - A_t(horizon)"),
+    ("s", F64, "E^(d-1)", "entropy density"),
+    ("rho", F64, "E^(d-1)", "charge density dP/dmu at fixed T"),
+    ("epsilon", F64, "E^d", "energy density"),
+    ("P", F64, "E^d", "pressure"),
+    ("Omega", F64, "E^d", "grand potential density, -P"),
+    ("chi2", F64, "E^(d-2)", "charge susceptibility d rho/d mu at fixed T"),
+    ("cs2", F64, "1", "speed of sound squared, dP/d epsilon at fixed s/rho"),
+    ("s_hat", F64, "1", "s / T^(d-1)"),
+    ("rho_hat", F64, "1", "rho / T^(d-1)"),
+    ("P_hat", F64, "1", "P / T^d"),
+    ("chi2_hat", F64, "1", "chi2 / T^(d-2)"),
+    ("status", STR, "", "ok | not converged | failed | no solution"),
+    ("message", STR, "", "reason for the status, in words"),
+    ("method", STR, "", "solution method"),
+    ("rtol", F64, "1", "relative tolerance of the ODE integration"),
+    ("atol", F64, "1", "absolute tolerance of the ODE integration"),
+    ("accept_error", F64, "1", "bar on error_estimate and residual for status ok"),
+    ("nfev", I64, "", "right-hand-side evaluations"),
+    ("nsteps", I64, "", "integrator steps"),
+    ("niter", I64, "", "root-finder iterations"),
+    ("residual", F64, "1", "largest relative violation of the Einstein constraint"),
+    ("error_estimate", F64, "1", "largest relative change of s, rho, epsilon, P at 100x tighter tolerances"),
+    ("wall_time", F64, "s", "time spent solving this point"),
+    ("extra", STR, "", "method-specific diagnostics, JSON"),
+    ("point_key", STR, "", "hash of model spec, solver settings, code hash, T, mu"),
+    ("chunk_id", STR, "", "chunk (job) that solved this point"),
+    ("code_hash", STR, "", "hash of the holoscan physics sources that produced the row"),
+    ("package_version", STR, "", "holoscan version"),
+    ("host", STR, "", "host name of the machine that solved the point"),
+    ("start_time", STR, "ISO 8601 UTC", "when the solve of this point started"),
+    ("end_time", STR, "ISO 8601 UTC", "when the solve of this point ended"),
+    ("log_file", STR, "", "log file of the job that solved this point"),
+]
+
+#: columns whose values are physics: identical, bit for bit, for the same config and code
+PHYSICS_COLUMNS = ["model_id", "kind", "d", "branch", "T", "mu", "s", "rho", "epsilon", "P", "Omega",
+                   "chi2", "cs2", "s_hat", "rho_hat", "P_hat", "chi2_hat", "status", "method",
+                   "error_estimate", "residual", "point_key"]
+
+
+def schema(file_meta: dict | None = None) -> pa.Schema:
+    fields = [pa.field(n, t, metadata={"unit": u, "description": m}) for n, t, u, m in COLUMNS]
+    meta = {META_KEY: json.dumps(file_meta, sort_keys=True, default=str).encode()} if file_meta else None
+    return pa.schema(fields, metadata=meta)
+
+
+def _cell(v, t):
+    if t == F64:
+        return float(v) if v is not None else math.nan
+    if t == I64:
+        return int(v)
+    return "" if v is None else str(v)
+
+
+def rows_to_table(rows: list[dict], file_meta: dict | None = None) -> pa.Table:
+    sch = schema(file_meta)
+    cols = {n: [_cell(r.get(n), t) for r in rows] for n, t, _, _ in COLUMNS}
+    return pa.Table.from_pydict(cols, schema=sch)
+
+
+def file_metadata(table: pa.Table) -> dict:
+    """The ``holoscan`` JSON key of a table's file-level metadata ({} if absent)."""
+    raw = (table.schema.metadata or {}).get(META_KEY)
+    return json.loads(raw) if raw else {}

@@ -1,0 +1,36 @@
+# Validation of the config and the plan of the scan, at parse time, before any job runs.
+import sys
+from pathlib import Path
+
+from holoscan.scan.snakemake_glue import ConfigProblem, plan_scan
+
+# The interpreter that runs Snakemake runs the jobs too (same environment, also on a cluster).
+PY = sys.executable
+
+try:
+    CFG, PLAN = plan_scan(
+        config,
+        Path(workflow.basedir) / "workflow" / "schemas" / "config.schema.yaml",
+        "results",
+        main_process=workflow.is_main_process,
+    )
+except ConfigProblem as exc:
+    print(f"holoscan: {exc}", file=sys.stderr)
+    sys.exit(1)
+
+if workflow.is_main_process:
+    for chunk, reason in PLAN.quarantined:
+        print(f"holoscan: segment {chunk} quarantined ({reason}); its points will be solved again", file=sys.stderr)
+    print(
+        f"holoscan: scan '{PLAN.scan}': {PLAN.n_points} points, {PLAN.n_missing} to solve "
+        f"in {len(PLAN.chunk_ids)} job(s) of <= {PLAN.chunk_size} points",
+        file=sys.stderr,
+    )
+
+
+def get_final_targets():
+    return [f"results/{PLAN.scan}/points.parquet", f"results/{PLAN.scan}/summary.json"]
+
+
+def get_segments(wildcards):
+    return [f"results/{wildcards.scan}/segments/{c}.parquet" for c in PLAN.segment_ids]

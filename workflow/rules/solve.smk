@@ -1,0 +1,13 @@
+# One job solves one chunk of grid points (a manifest written by the plan) into a sealed segment.
+rule solve_chunk:
+    input:
+        manifest="results/{scan}/plan/{chunk}.json",
+    output:
+        segment="results/{scan}/segments/{chunk}.parquet",
+        seal="results/{scan}/segments/{chunk}.json",
+    log:
+        "logs/solve_chunk/{scan}/{chunk}.log",
+    wildcard_constraints:
+        chunk="[0-9a-f]{16}",
+    shell:
+        "{PY} -m holoscan solve-chunk {input.manifest} --out {output.segment} --log {log} > {log} 2>&1"
