@@ -72,6 +72,15 @@ def cmd_assemble(args) -> int:
     return 0
 
 
+def cmd_audit(args) -> int:
+    from .scan.audit import audit_report
+
+    check_target(args.T, args.mu, key_T="--T", key_mu="--mu")
+    report = audit_report(args.table, args.model, args.T, args.mu, do_recompute=args.recompute)
+    print(json.dumps(_json_ready(report), indent=2, allow_nan=False))
+    return 0
+
+
 def build_parser() -> argparse.ArgumentParser:
     p = argparse.ArgumentParser(prog="holoscan", description="Charged black-brane thermodynamics.")
     p.add_argument("--version", action="version", version=f"holoscan {__version__}")
@@ -83,6 +92,14 @@ def build_parser() -> argparse.ArgumentParser:
     pt.add_argument("--mu", required=True, type=float, help="chemical potential (any sign)")
     pt.add_argument("--method", choices=METHODS, help="solution method (default: the kind's own)")
     pt.set_defaults(func=cmd_point)
+
+    au = sub.add_parser("audit", help="print everything recorded about one row of a table")
+    au.add_argument("table", help="a points table (Parquet) written by the workflow")
+    au.add_argument("--model", required=True)
+    au.add_argument("--T", required=True, type=float)
+    au.add_argument("--mu", required=True, type=float)
+    au.add_argument("--recompute", action="store_true", help="solve the point again now and compare")
+    au.set_defaults(func=cmd_audit)
 
     ck = sub.add_parser("check", help="validate a scan config and count its points")
     ck.add_argument("--config", required=True)

@@ -19,7 +19,6 @@ import time
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.optimize import brentq
 
 from .bulk.charged_brane import ChargedBrane, HorizonData
 from .engine import ShootSettings, shoot
@@ -58,6 +57,8 @@ def _observe(brane: ChargedBrane, kappa_sq: float, Phi1: float, ss: ShootSetting
 
 def _target(brane, kappa_sq, Phi_max, x, ss, cnt):
     """Horizon fraction u with mu/T(u) = x >= 0, and the observables there."""
+    from scipy.optimize import brentq  # imported here: scans by closed form never pay for it
+
     if x == 0.0:
         return 0.0, _observe(brane, kappa_sq, 0.0, ss, cnt), 0
 

@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import math
+import re
 from numbers import Integral, Real
 
 from .errors import InputError
@@ -17,7 +18,10 @@ def number(value, key: str, *, positive: bool = False, nonneg: bool = False) -> 
                 raise InputError(key, value, "must be a number") from None
         else:
             raise InputError(key, value, "must be a number")
-    x = float(value)
+    try:
+        x = float(value)
+    except OverflowError:
+        raise InputError(key, value, "is too large for a floating-point number") from None
     if not math.isfinite(x):
         raise InputError(key, value, "must be finite (not NaN or infinite)")
     if positive and not x > 0:
@@ -48,6 +52,16 @@ def text(value, key: str) -> str:
     """A non-empty string."""
     if not isinstance(value, str) or not value.strip():
         raise InputError(key, value, "must be a non-empty string")
+    return value
+
+
+_NAME = re.compile(r"[A-Za-z0-9][A-Za-z0-9_.-]{0,63}")
+
+
+def name(value, key: str) -> str:
+    """A name used in file paths: letters, digits, '_', '.', '-', at most 64, no whitespace."""
+    if not isinstance(value, str) or not _NAME.fullmatch(value):
+        raise InputError(key, value, "must be 1-64 letters, digits, '_', '.' or '-', starting with a letter or digit")
     return value
 
 

@@ -21,7 +21,6 @@ from dataclasses import dataclass
 from typing import Protocol
 
 import numpy as np
-from scipy.integrate import solve_ivp
 
 
 #: scipy's step-size heuristics divide by ``atol + rtol |y|``; a component that is exactly zero at
@@ -89,6 +88,8 @@ class Shot:
 
 def shoot(problem: ShootingProblem, params, settings: ShootSettings, *, want_residual: bool = True) -> Shot:
     """Integrate ``problem`` for horizon data ``params`` from the horizon series to its end point."""
+    from scipy.integrate import solve_ivp  # imported on first use: keeps job start-up short
+
     eps = settings.horizon_offset
     try:
         y0 = np.asarray(problem.start_state(params, eps), dtype=float)

@@ -56,7 +56,7 @@ class RNModel:
     def from_block(cls, block: dict, key: str = "model") -> "RNModel":
         v.only_keys(block, set(cls.KEYS), key)
         return cls(
-            id=v.text(v.required(block, "id", key), f"{key}.id"),
+            id=v.name(v.required(block, "id", key), f"{key}.id"),
             d=v.integer(v.required(block, "d", key), f"{key}.d", minimum=3, maximum=12),
             kappa_sq=v.number(v.required(block, "kappa_sq", key), f"{key}.kappa_sq", positive=True),
             e_sq=v.number(v.required(block, "e_sq", key), f"{key}.e_sq", positive=True),

@@ -13,6 +13,7 @@ from pathlib import Path
 import jsonschema
 import yaml
 
+from .. import validate as v
 from ..errors import InputError
 from ..models import model_from_block
 from ..point import resolve_method
@@ -47,8 +48,8 @@ _HINTS = {
 def _schema_error(err: jsonschema.ValidationError) -> InputError:
     key = _key(err.absolute_path)
     if err.validator == "additionalProperties":
-        extra = sorted(set(err.instance) - set(err.schema.get("properties", {})))
-        k = f"{key}.{extra[0]}" if key != "(top level)" else extra[0]
+        extra = sorted(set(err.instance) - set(err.schema.get("properties", {})), key=str)
+        k = f"{key}.{extra[0]}" if key != "(top level)" else str(extra[0])
         allowed = ", ".join(sorted(err.schema.get("properties", {})))
         return InputError(k, err.instance[extra[0]], f"unknown key; allowed keys: {allowed}")
     if err.validator == "required":
@@ -59,10 +60,26 @@ def _schema_error(err: jsonschema.ValidationError) -> InputError:
         if isinstance(err.instance, dict) and "T" in err.instance:
             return InputError(key, err.instance, "give exactly one of 'mu' and 'mu_over_T'")
         return InputError(key, err.instance, _HINTS["axis"])
+    if err.validator == "type" and isinstance(err.instance, str) and _looks_numeric(err.instance):
+        return InputError(key, err.instance, f"is text, not a number: YAML reads an exponent without a decimal "
+                          f"point as text; write it like {_as_yaml_float(err.instance)}")
     msg = err.message
     if len(msg) > 200:
         msg = msg[:200] + "..."
     return InputError(key, err.instance, msg)
+
+
+def _looks_numeric(text: str) -> bool:
+    try:
+        float(text)
+        return True
+    except ValueError:
+        return False
+
+
+def _as_yaml_float(text: str) -> str:
+    mant, _, exp = text.lower().partition("e")
+    return f"{mant if '.' in mant else mant + '.0'}e{exp}" if exp else text
 
 
 @dataclass(frozen=True)
@@ -98,6 +115,7 @@ def validate_scan_config(doc, schema: dict | None = None) -> ScanConfig:
     err = jsonschema.exceptions.best_match(validator.iter_errors(doc))
     if err is not None:
         raise _schema_error(err)
+    v.name(doc["scan"], "scan")
     default_solver = SolverSettings.from_block(doc.get("solver"), "solver")
     plans, seen = [], set()
     for i, block in enumerate(doc["models"]):

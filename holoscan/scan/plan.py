@@ -43,8 +43,10 @@ class Plan:
 
 
 def _write_once(path: Path, text: str) -> None:
+    """Write a plan file unless it already holds ``text``. No fsync: plan files are recomputed and
+    compared on every run, so a file torn by a crash is simply rewritten."""
     if not path.exists() or path.read_text() != text:
-        atomic_write_text(path, text)
+        atomic_write_text(path, text, durable=False)
 
 
 def make_plan(cfg: ScanConfig, results_dir="results", *, write: bool = True) -> Plan:

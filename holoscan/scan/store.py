@@ -25,19 +25,21 @@ def sha256_file(path: Path) -> str:
     return h.hexdigest()
 
 
-def atomic_write_bytes(path: Path, data: bytes) -> None:
+def atomic_write_bytes(path: Path, data: bytes, durable: bool = True) -> None:
+    """Write to a temporary name in the same folder, then rename; ``durable`` fsyncs first."""
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
     tmp = path.with_name(f".{path.name}.tmp-{os.getpid()}")
     with open(tmp, "wb") as fh:
         fh.write(data)
         fh.flush()
-        os.fsync(fh.fileno())
+        if durable:
+            os.fsync(fh.fileno())
     os.replace(tmp, path)
 
 
-def atomic_write_text(path: Path, text: str) -> None:
-    atomic_write_bytes(path, text.encode())
+def atomic_write_text(path: Path, text: str, durable: bool = True) -> None:
+    atomic_write_bytes(path, text.encode(), durable)
 
 
 def seal_path(segment: Path) -> Path:

@@ -78,8 +78,8 @@ def _cell(v, t):
 
 def rows_to_table(rows: list[dict], file_meta: dict | None = None) -> pa.Table:
     sch = schema(file_meta)
-    cols = {n: [_cell(r.get(n), t) for r in rows] for n, t, _, _ in COLUMNS}
-    return pa.Table.from_pydict(cols, schema=sch)
+    arrays = [pa.array([_cell(r.get(n), t) for r in rows], type=t) for n, t, _, _ in COLUMNS]
+    return pa.Table.from_arrays(arrays, schema=sch)  # (from_pydict would import pandas)
 
 
 def file_metadata(table: pa.Table) -> dict:

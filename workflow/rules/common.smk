@@ -29,7 +29,11 @@ if workflow.is_main_process:
 
 
 def get_final_targets():
-    return [f"results/{PLAN.scan}/points.parquet", f"results/{PLAN.scan}/summary.json"]
+    # The new chunks' segments are targets themselves: Snakemake does not remake a missing
+    # intermediate file for a consumer that is otherwise up to date, and a deleted or quarantined
+    # segment comes back under the same chunk id with an unchanged plan.
+    new = [str(PLAN.segment(c)) for c in PLAN.chunk_ids]
+    return [f"results/{PLAN.scan}/points.parquet", f"results/{PLAN.scan}/summary.json", *new]
 
 
 def get_segments(wildcards):
