@@ -69,10 +69,14 @@ def schema(file_meta: dict | None = None) -> pa.Schema:
 
 
 def _cell(v, t):
+    """Missing or non-finite-because-unknown values are stored as null (NaN becomes null), so a
+    failed point reads back the same through pyarrow and pandas."""
     if t == F64:
-        return float(v) if v is not None else math.nan
+        if v is None or (isinstance(v, float) and math.isnan(v)):
+            return None
+        return float(v)
     if t == I64:
-        return int(v)
+        return int(v) if v is not None else 0
     return "" if v is None else str(v)
 
 
