@@ -102,9 +102,10 @@ def job_env() -> dict:
 
 
 def prepare(workdir: Path, cfg: dict) -> None:
-    """A runnable workflow directory: the repository's Snakefile and workflow/, and ``cfg``."""
+    """A runnable workflow directory: the repository's Snakefile, workflow/, profiles/ and ``cfg``."""
     shutil.copy2(REPO / "Snakefile", workdir / "Snakefile")
-    shutil.copytree(REPO / "workflow", workdir / "workflow", ignore=shutil.ignore_patterns("__pycache__"))
+    for d in ("workflow", "profiles"):
+        shutil.copytree(REPO / d, workdir / d, ignore=shutil.ignore_patterns("__pycache__"))
     (workdir / "config").mkdir()
     (workdir / "config" / "config.yaml").write_text(yaml.safe_dump(cfg, sort_keys=False))
 

@@ -17,11 +17,12 @@ REPO = Path(__file__).resolve().parents[1]
 
 
 def workspace(tmp: Path, config: dict) -> Path:
-    """A folder with the Snakefile, workflow/ and config/config.yaml = ``config``."""
+    """A folder with the Snakefile, workflow/, profiles/ and config/config.yaml = ``config``."""
     tmp.mkdir(parents=True, exist_ok=True)
     shutil.copy(REPO / "Snakefile", tmp / "Snakefile")
-    if not (tmp / "workflow").exists():
-        shutil.copytree(REPO / "workflow", tmp / "workflow")
+    for d in ("workflow", "profiles"):
+        if not (tmp / d).exists():
+            shutil.copytree(REPO / d, tmp / d)
     write_config(tmp, config)
     return tmp
 
