@@ -33,7 +33,7 @@ class SolverSettings:
     rtol: float = 1e-10
     horizon_offset: float = 1e-8
     accept_error: float = 1e-8
-    fd_step: float = 1e-4
+    fd_step: float = 1e-3
 
     @classmethod
     def from_block(cls, block, key: str = "solver") -> "SolverSettings":

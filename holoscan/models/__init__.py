@@ -5,10 +5,11 @@ from __future__ import annotations
 
 from ..errors import InputError
 from .. import validate as v
+from .emd import EMDModel
 from .rn import RNModel
 
 #: kind name -> model class
-KINDS = {"rn": RNModel}
+KINDS = {"rn": RNModel, "emd": EMDModel}
 
 
 def model_from_block(block, key: str = "model"):
@@ -33,4 +34,4 @@ def models_from_list(blocks, key: str = "models") -> dict:
     return out
 
 
-__all__ = ["KINDS", "RNModel", "model_from_block", "models_from_list"]
+__all__ = ["KINDS", "EMDModel", "RNModel", "model_from_block", "models_from_list"]

@@ -1,0 +1,67 @@
+"""The charged brane with a dynamical scalar: boundary data read off the scalar's falloff.
+
+Same field equations and gauge as :mod:`holoscan.bulk.charged_brane`. Near the boundary
+(``A -> infinity``) the scalar of mass ``m^2 = Delta (Delta - d)`` falls off as::
+
+    phi = a e^{-(d-Delta) A} + b e^{-Delta A} + ...        (Delta != d/2)
+    phi = (a A + b) e^{-(d/2) A} + ...                      (Delta  = d/2)
+
+``a`` is the source of the dual operator (in the frame of the bulk solution). Everything is read in
+units of the temperature, which removes the unknown frame shift ``A0 = lim (A - r/sqrt(h_inf))``::
+
+    sqrt(h_inf) from h = h_inf + c e^{-dA},   Phi_inf = Phi + Phi'/((d-2) A')
+    mu/T     = 4 pi Phi_inf,           s/T^(d-1)   = (2 pi / kappa^2) (4 pi sqrt(h_inf))^(d-1)
+    rho/T^(d-1) = G/(2 kappa^2) (4 pi sqrt(h_inf))^(d-1),   G = f(phi) e^{(d-2)A} Phi'  (Gauss law)
+    j = J / T^(d-Delta) = a (4 pi sqrt(h_inf))^(d-Delta)       (dimensionless source)
+
+(the horizon gauge ``A(0) = 0``, ``h'(0) = 1`` gives ``T = 1/(4 pi e^{A0} sqrt(h_inf))``). The
+integration stops where ``A = A_end``, far enough out that the non-linear corrections to the
+falloff, of relative size ``e^{-(d-Delta) A_end}``, are below double precision.
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from .charged_brane import ChargedBrane
+
+
+class ScalarBrane(ChargedBrane):
+    """Charged brane with a scalar of dimension ``delta`` (``d/2 <= delta < d``)."""
+
+    def __init__(self, d, V, f, delta: float, A_end: float | None = None):
+        super().__init__(d, V, f)
+        self.delta = float(delta)
+        gap = d - self.delta if self.delta > d / 2 else d / 2
+        self.A_end = float(A_end) if A_end is not None else max(10.0, 30.0 / gap)
+
+    def end_point(self, hd) -> float:
+        return 1e6 * self.A_end / self.horizon_slope(hd)  # an upper bound; the event ends it
+
+    def end_event(self, r, y):
+        return y[0] - self.A_end
+
+    def boundary_dimensionless(self, y_end, kappa_sq: float) -> dict:
+        """``x = mu/T``, ``j``, ``s_hat = s/T^(d-1)``, ``rho_hat = rho/T^(d-1)`` (see module docstring)."""
+        d, D = self.d, self.delta
+        A, dA, h, dh, Ph, dPh, ph, dph = (float(v) for v in y_end)
+        f = float(self.f.derivs(ph)[0])
+        h_inf = h + dh / (d * dA)
+        if not (h_inf > 0 and dA > 0 and math.isfinite(h_inf)):
+            nan = math.nan
+            return {"x": nan, "j": nan, "s_hat": nan, "rho_hat": nan, "h_inf": h_inf, "frame_mismatch": nan}
+        sq = 4.0 * math.pi * math.sqrt(h_inf)
+        G = f * math.exp((d - 2) * A) * dPh
+        if abs(D - d / 2) < 1e-12:
+            a = (dph + 0.5 * d * dA * ph) * math.exp(0.5 * d * A) / dA
+        else:
+            a = (D * ph + dph / dA) * math.exp((d - D) * A) / (2 * D - d)
+        return {
+            "x": 4.0 * math.pi * (Ph + dPh / ((d - 2) * dA)),
+            "j": a * sq ** (d - D),
+            "s_hat": 2.0 * math.pi / kappa_sq * sq ** (d - 1),
+            "rho_hat": G / (2.0 * kappa_sq) * sq ** (d - 1),
+            "h_inf": h_inf,
+            "frame_mismatch": abs(dA * math.sqrt(h_inf) - 1.0),
+        }

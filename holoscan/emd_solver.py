@@ -1,0 +1,272 @@
+"""Targeted solves of a charged brane with a dynamical scalar, on every branch.
+
+Horizon data are ``q = (phi0, u)`` with ``Phi1 = u * Phi1_max(phi0)`` (``Phi1_max`` makes the horizon
+slope ``A'(0)`` vanish). One shot gives dimensionless observables (:mod:`holoscan.bulk.scalar_brane`):
+``x = mu/T``, the dimensionless source ``j = J/T^(d-Delta)``, ``s/T^(d-1)`` and ``rho/T^(d-1)``.
+A target is two conditions on ``q``:
+
+- sourced scalar (non-conformal; units of the source, ``J = 1``): ``T = j^(-1/(d-Delta))`` and
+  ``x = mu/T``, written as ``F = (-log(j)/(d-Delta) - log(T), x - mu/T)``;
+- unsourced scalar (a conformal family): ``F = (j, x - mu/T)``, then the scaling symmetry sets T.
+
+All branches: a coarse scan of horizon data (loose tolerance, short runs) is made once per model. For
+a sourced scalar every triangle of the scan grid whose image encloses ``F = 0`` seeds a Newton
+iteration (finite-difference Jacobian) at full tolerance; for an unsourced one the ``j = 0`` family
+is traced through the scan (one point per ``phi0`` node) and every crossing of the target ``mu/T``
+along it is a seed; converged roots closer than ``1e-7`` in ``q`` are one branch. No root is
+"no solution". ``mu < 0`` uses the sign symmetry (``rho`` odd).
+"""
+from __future__ import annotations
+
+import math
+import time
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .bulk.charged_brane import HorizonData
+from .bulk.scalar_brane import ScalarBrane
+from .engine import ShootSettings, shoot
+from .result import PointResult, Status
+from .settings import SolverSettings
+from .thermo import cs2_from_hessian, hessian_from_jacobians
+
+
+@dataclass
+class Counters:
+    nfev: int = 0
+    nsteps: int = 0
+    shots: int = 0
+    residual: float = 0.0
+
+
+@dataclass(frozen=True)
+class Grid:
+    """Coarse scan of horizon data: ``phi0`` and ``u`` nodes and the observables at each node."""
+
+    phi0: np.ndarray
+    u: np.ndarray
+    obs: np.ndarray = field(repr=False)  # (n_phi0, n_u, 4): x, j, s_hat, rho_hat (NaN where a shot failed)
+
+
+class EMDShooter:
+    """Shoot one model at horizon data ``(phi0, u)``; counts every shot."""
+
+    def __init__(self, brane: ScalarBrane, kappa_sq: float, sourced: bool, phi0_max: float = 6.0,
+                 n_phi0: int = 33, n_u: int = 13, u_max: float = 0.96):
+        self.brane, self.kappa_sq, self.sourced = brane, kappa_sq, sourced
+        self.phi0_max, self.n_phi0, self.n_u, self.u_max = phi0_max, n_phi0, n_u, u_max
+        self._grid = None
+        self.cache: dict = {}  # model-level results shared by the points of a process (pressure reference)
+
+    def phi0_nodes(self) -> np.ndarray:
+        """Coarse-scan nodes: geometric in (1e-2, phi0_max] for a sourced scalar (phi0 > 0 is the
+        sign of a positive source), symmetric and denser near 0 for an unsourced one."""
+        if self.sourced:
+            return np.geomspace(1e-2, self.phi0_max, self.n_phi0)
+        k = np.linspace(-1.0, 1.0, self.n_phi0)
+        return self.phi0_max * np.sign(k) * k**2
+
+    def Phi1_max(self, phi0: float) -> float:
+        V = float(self.brane.V.derivs(phi0)[0])
+        f = float(self.brane.f.derivs(phi0)[0])
+        return math.sqrt(max(-2.0 * V / f, 0.0))
+
+    def observe(self, q, ss: ShootSettings, cnt: Counters | None = None, record: bool = False,
+                brane: ScalarBrane | None = None) -> np.ndarray | None:
+        """Observables at horizon data q, or None. ``record`` adds the shot's field-equation residual
+        and boundary frame mismatch to ``cnt.residual`` (done for the shots a result is made of)."""
+        phi0, u = float(q[0]), float(q[1])
+        try:
+            hd = HorizonData(phi0, u * self.Phi1_max(phi0))
+        except (ValueError, OverflowError):
+            return None
+        brane = brane or self.brane
+        shot = shoot(brane, hd, ss, want_residual=record)
+        if cnt is not None:
+            cnt.nfev += shot.nfev
+            cnt.nsteps += shot.nsteps
+            cnt.shots += 1
+        if not shot.ok:
+            return None
+        b = brane.boundary_dimensionless(shot.y_end, self.kappa_sq)
+        out = np.array([b["x"], b["j"], b["s_hat"], b["rho_hat"]])
+        if not np.all(np.isfinite(out)):
+            return None
+        if record and cnt is not None:
+            cnt.residual = max(cnt.residual, shot.residual, b["frame_mismatch"])
+        return out
+
+    def grid(self) -> Grid:
+        """The coarse scan (loose tolerance), computed once per shooter."""
+        if self._grid is None:
+            phi0 = self.phi0_nodes()
+            u = np.linspace(0.0, self.u_max, self.n_u)
+            ss = ShootSettings(rtol=1e-6)
+            coarse = ScalarBrane(self.brane.d, self.brane.V, self.brane.f, self.brane.delta,
+                                 A_end=min(self.brane.A_end, 10.0))  # seeds only: a shorter run suffices
+            obs = np.full((len(phi0), len(u), 4), np.nan)
+            for i, p in enumerate(phi0):
+                for m, w in enumerate(u):
+                    o = self.observe((p, w), ss, brane=coarse)
+                    if o is not None:
+                        obs[i, m] = o
+            self._grid = Grid(phi0, u, obs)
+        return self._grid
+
+    # -- residual of a target -----------------------------------------------------------------------
+    def residual(self, o: np.ndarray, T_hat: float, x: float) -> np.ndarray:
+        d, D = self.brane.d, self.brane.delta
+        if self.sourced:
+            first = -math.log(o[1]) / (d - D) - math.log(T_hat) if o[1] > 0 else math.nan
+        else:
+            first = o[1]
+        return np.array([first, o[0] - x])
+
+
+def _seeds(sh: EMDShooter, T_hat: float, x: float) -> list[np.ndarray]:
+    g = sh.grid()
+    F = np.full(g.obs.shape[:2] + (2,), np.nan)
+    for i in range(len(g.phi0)):
+        for m in range(len(g.u)):
+            if np.all(np.isfinite(g.obs[i, m])):
+                F[i, m] = sh.residual(g.obs[i, m], T_hat, x)
+    seeds = []
+    for i in range(len(g.phi0) - 1):
+        for m in range(len(g.u) - 1):
+            corners = [(i, m), (i + 1, m), (i + 1, m + 1), (i, m + 1)]
+            for tri in (corners[:3], [corners[0], corners[2], corners[3]]):
+                P = np.array([F[a, b] for a, b in tri])
+                if not np.all(np.isfinite(P)):
+                    continue
+                M = np.array([P[1] - P[0], P[2] - P[0]]).T
+                if abs(np.linalg.det(M)) < 1e-300:
+                    continue
+                lam = np.linalg.solve(M, -P[0])
+                l0 = 1.0 - lam.sum()
+                if min(l0, lam[0], lam[1]) >= -0.1:
+                    Q = np.array([[g.phi0[a], g.u[b]] for a, b in tri])
+                    seeds.append(Q[0] + lam[0] * (Q[1] - Q[0]) + lam[1] * (Q[2] - Q[0]))
+    return seeds
+
+
+def _newton(sh: EMDShooter, q, T_hat, x, ss, cnt, tol=1e-12, accept=1e-8, maxiter=30):
+    """Damped Newton on F(q) = 0 with a forward-difference Jacobian.
+
+    Stops when ``|F| < tol`` or when the step falls below ``1e-13 (1 + |q|)`` (the noise floor of the
+    shots: the source ``j`` is a difference of nearly equal boundary terms); succeeds if then
+    ``|F| < accept``. Returns (q, |F|, iterations, observables) or None.
+    """
+    q = np.array(q, float)
+    o = sh.observe(q, ss, cnt)
+    if o is None:
+        return None
+    F = sh.residual(o, T_hat, x)
+    for it in range(1, maxiter + 1):
+        if not np.all(np.isfinite(F)):
+            return None
+        nF = float(np.max(np.abs(F)))
+        if nF < tol:
+            return q, nF, it - 1, o
+        J = np.empty((2, 2))
+        for k in range(2):
+            dq = np.zeros(2)
+            dq[k] = 1e-7 * max(1.0, abs(q[k]))
+            ok = sh.observe(q + dq, ss, cnt)
+            if ok is None:
+                dq[k] = -dq[k]
+                ok = sh.observe(q + dq, ss, cnt)
+                if ok is None:
+                    return None
+            J[:, k] = (sh.residual(ok, T_hat, x) - F) / dq[k]
+        try:
+            step = np.linalg.solve(J, -F)
+        except np.linalg.LinAlgError:
+            return None
+        if np.max(np.abs(step)) < 1e-13 * (1.0 + np.max(np.abs(q))):
+            return (q, nF, it, o) if nF < accept else None
+        lam = 1.0
+        while lam > 1e-4:
+            qn = q + lam * step
+            on = sh.observe(qn, ss, cnt) if abs(qn[1]) < 1.0 else None
+            if on is not None:
+                Fn = sh.residual(on, T_hat, x)
+                nFn = float(np.max(np.abs(Fn))) if np.all(np.isfinite(Fn)) else np.inf
+                if nFn < max(nF * (1 - 1e-4 * lam), 1e-2 * accept):
+                    if nF < accept and nFn > 0.5 * nF:  # at the noise floor: no more progress to make
+                        return (qn, nFn, it, on) if nFn <= nF else (q, nF, it, o)
+                    q, o, F = qn, on, Fn
+                    break
+            lam *= 0.5
+        else:
+            return (q, nF, it, o) if nF < accept else None
+    nF = float(np.max(np.abs(F)))
+    return (q, nF, maxiter, o) if nF < accept else None
+
+
+def family_curve(sh: EMDShooter) -> np.ndarray:
+    """Unsourced models: points ``(phi0, u, x)`` on the ``j = 0`` family, one per coarse ``phi0`` node.
+
+    At each node the first sign change of ``j`` along the coarse ``u`` nodes is refined by Brent's
+    method (loose tolerance, short runs): these are seeds only.
+    """
+    if "family" in sh.cache:
+        return sh.cache["family"]
+    from scipy.optimize import brentq
+
+    g = sh.grid()
+    ss = ShootSettings(rtol=1e-6)
+    coarse = ScalarBrane(sh.brane.d, sh.brane.V, sh.brane.f, sh.brane.delta, A_end=min(sh.brane.A_end, 10.0))
+    pts = []
+    for i, p in enumerate(g.phi0):
+        js = g.obs[i, :, 1]
+        for m in range(len(g.u) - 1):
+            a, b = js[m], js[m + 1]
+            if not (np.isfinite(a) and np.isfinite(b)):
+                break
+            if a == 0.0:
+                pts.append((p, g.u[m], g.obs[i, m, 0]))
+                break
+            if a * b < 0:
+                def jfun(w):
+                    o = sh.observe((p, w), ss, brane=coarse)
+                    return np.nan if o is None else o[1]
+                try:
+                    w = brentq(jfun, g.u[m], g.u[m + 1], xtol=1e-10)
+                except ValueError:
+                    break
+                o = sh.observe((p, w), ss, brane=coarse)
+                if o is not None:
+                    pts.append((p, w, o[0]))
+                break
+    sh.cache["family"] = np.array(pts).reshape(-1, 3)
+    return sh.cache["family"]
+
+
+def _family_seeds(sh: EMDShooter, x: float) -> list[np.ndarray]:
+    fam = family_curve(sh)
+    seeds = [p[:2].copy() for p in fam if p[2] == x]
+    for k in range(len(fam) - 1):
+        a, b = fam[k, 2] - x, fam[k + 1, 2] - x
+        if a * b < 0:
+            t = a / (a - b)
+            seeds.append(fam[k, :2] + t * (fam[k + 1, :2] - fam[k, :2]))
+    return seeds
+
+
+def find_branches(sh: EMDShooter, T_hat: float, x: float, ss: ShootSettings, cnt: Counters):
+    """All roots ``q`` of the target; list of (q, |F|, iterations, observables), sorted by phi0."""
+    roots = []
+    seeds = _seeds(sh, T_hat, x) if sh.sourced else _family_seeds(sh, x)
+    for seed in seeds:
+        if any(np.max(np.abs(seed - r[0])) < 1e-3 for r in roots):
+            continue  # a neighbouring triangle already led to this root
+        r = _newton(sh, seed, T_hat, x, ss, cnt)
+        if r is None:
+            continue
+        q = r[0]
+        if abs(q[1]) < 1e-14:
+            q = np.array([q[0], 0.0])
+        if not any(np.max(np.abs(q - o[0])) < 1e-7 for o in roots):
+            roots.append((q, *r[1:]))
+    return sorted(roots, key=lambda r: r[0][0])

@@ -1,0 +1,345 @@
+"""Model kind ``emd``: Einstein-Maxwell-dilaton black branes in five bulk dimensions (d = 4).
+
+Lagrangian density (L = 1)::
+
+    1/(2 kappa^2) [ R - (1/2)(d phi)^2 - V(phi) - f(phi) F^2 / 4 ]
+
+``V`` and ``f`` are user-given expressions in ``phi`` (parsed by :mod:`holoscan.expr`, never
+evaluated as code; their derivatives are exact). Requirements, checked before any solve:
+``V(0) = -12`` (AdS with L = 1), ``V'(0) = 0``, ``f(0) > 0``, and the scalar mass
+``m^2 = V''(0) = Delta (Delta - 4)`` in the window ``-4 <= m^2 < 0`` (``2 <= Delta < 4``), unless
+the model has no scalar dynamics at all (``V`` and ``f`` constant), which is Einstein-Maxwell:
+``V = -12``, ``f = 1`` is the ``rn`` model with ``d = 4`` and ``e^2 = 2 kappa^2 / f``.
+
+``source: true`` (default): the scalar's source ``J`` breaks conformal symmetry and sets the unit of
+energy, ``J^(1/(4-Delta)) = 1``; ``energy_scale`` (default 1) is the value of that unit in the
+units of the config's T and mu, and all outputs are in the config's units. The pressure comes from
+the first law (two integration routes, :mod:`holoscan.emd_pressure`).
+
+``source: false`` keeps the dual operator unsourced: the theory stays conformal, ``mu/T`` is its
+only parameter and the branes form a family with ``epsilon = 3 P`` and ``P = (T s + mu rho)/4``.
+Units: any energy unit E, as for ``rn``.
+"""
+from __future__ import annotations
+
+import math
+import time
+from dataclasses import dataclass
+
+import numpy as np
+
+from .. import validate as v
+from ..bulk.charged_brane import ChargedBrane
+from ..bulk.scalar_brane import ScalarBrane
+from ..conformal import solve_unsourced
+from ..emd_pressure import ZeroDensityPressure, lobatto, path_integral
+from ..emd_solver import Counters, EMDShooter, find_branches
+from ..engine import ShootSettings
+from ..errors import InputError
+from ..expr import ParsedCoupling
+from ..result import PointResult, Status
+from ..settings import SolverSettings
+from ..thermo import cs2_from_hessian, hessian_from_jacobians
+
+D_BOUNDARY = 4
+
+
+@dataclass(frozen=True)
+class EMDModel:
+    """Einstein-Maxwell-dilaton model; see the module docstring."""
+
+    id: str
+    kappa_sq: float
+    V: str
+    f: str
+    source: bool = False
+    energy_scale: float = 1.0
+
+    kind = "emd"
+    methods = ("shooting",)
+    default_method = "shooting"
+    KEYS = ("id", "kind", "kappa_sq", "V", "f", "source", "energy_scale")
+
+    @classmethod
+    def from_block(cls, block: dict, key: str = "model") -> "EMDModel":
+        v.only_keys(block, set(cls.KEYS), key)
+        m = cls(
+            id=v.name(v.required(block, "id", key), f"{key}.id"),
+            kappa_sq=v.number(v.required(block, "kappa_sq", key), f"{key}.kappa_sq", positive=True),
+            V=v.text(v.required(block, "V", key), f"{key}.V"),
+            f=v.text(v.required(block, "f", key), f"{key}.f"),
+            source=block.get("source", True),
+            energy_scale=v.number(block.get("energy_scale", 1.0), f"{key}.energy_scale", positive=True),
+        )
+        if not isinstance(m.source, bool):
+            raise InputError(f"{key}.source", m.source, "must be true or false")
+        m.check(key)
+        return m
+
+    # -- parsed couplings and checks ------------------------------------------------------------------
+    def couplings(self, key: str = "model"):
+        return ParsedCoupling(self.V, f"{key}.V"), ParsedCoupling(self.f, f"{key}.f")
+
+    def check(self, key: str = "model") -> None:
+        V, f = self.couplings(key)
+        v0, v1, v2 = V.taylor0(3)[:3] if hasattr(V, "taylor0") else (None, None, None)
+        V0, V1, V2 = (float(x) for x in V.derivs(0.0))
+        f0 = float(f.derivs(0.0)[0])
+        if not abs(V0 + 12.0) <= 1e-9:
+            raise InputError(f"{key}.V", self.V, f"V(0) = {V0:.12g}, must be -12 (AdS radius L = 1)")
+        if not abs(V1) <= 1e-9:
+            raise InputError(f"{key}.V", self.V, f"V'(0) = {V1:.6g}, must be 0 (phi = 0 must be an extremum)")
+        if not (f0 > 0 and math.isfinite(f0)):
+            raise InputError(f"{key}.f", self.f, f"f(0) = {f0:.6g}, must be > 0")
+        if self.scalar_free():
+            return
+        if not (-4.0 - 1e-12 <= V2 < 0.0):
+            raise InputError(f"{key}.V", self.V, f"V''(0) = m^2 = {V2:.6g} gives no operator dimension "
+                             "Delta = 2 + sqrt(4 + m^2) in [2, 4): need -4 <= m^2 < 0")
+        if self.source and V2 <= -4.0 + 1e-9:
+            raise InputError(f"{key}.source", True, "a sourced scalar needs Delta > 2 (m^2 > -4); "
+                             "at the Breitenlohner-Freedman bound use source: false")
+
+    def scalar_free(self) -> bool:
+        """True when V and f are constants (the scalar decouples: Einstein-Maxwell)."""
+        V, f = self.couplings()
+        probe = np.array([-2.0, -0.5, 0.3, 1.7])
+        return bool(np.all(V.derivs(probe)[1] == 0.0) and np.all(f.derivs(probe)[1] == 0.0))
+
+    @property
+    def delta(self) -> float:
+        V2 = float(self.couplings()[0].derivs(0.0)[2])
+        return 2.0 + math.sqrt(max(4.0 + V2, 0.0))
+
+    def spec(self) -> dict:
+        return {"V": self.V, "energy_scale": self.energy_scale, "f": self.f, "id": self.id,
+                "kappa_sq": self.kappa_sq, "kind": self.kind, "source": self.source}
+
+    # -- solving -------------------------------------------------------------------------------------
+    def solve(self, T: float, mu: float, settings: SolverSettings = SolverSettings()) -> list[PointResult]:
+        V, f = self.couplings()
+        if self.scalar_free():
+            brane = ChargedBrane(D_BOUNDARY, V, f)
+            return [solve_unsourced(brane, self.kappa_sq, T, mu, settings, model_id=self.id, kind=self.kind)]
+        if self.source:
+            return solve_sourced(self, _shooter(self, V, f), T, mu, settings)
+        return solve_family(self, _shooter(self, V, f), T, mu, settings)
+
+
+_SHOOTERS: dict = {}
+
+
+def _fd_settings(ss: ShootSettings) -> ShootSettings:
+    """Shots for finite differences: 10 times tighter, since differencing divides their error by the step."""
+    return ShootSettings(rtol=max(ss.rtol / 10, 2.3e-14), horizon_offset=ss.horizon_offset)
+
+
+def _shooter(model: EMDModel, V, f) -> EMDShooter:
+    """One shooter (with its coarse scan of horizon data) per model and process."""
+    key = tuple(sorted(model.spec().items()))
+    if key not in _SHOOTERS:
+        brane = ScalarBrane(D_BOUNDARY, V, f, delta=model.delta)
+        _SHOOTERS[key] = EMDShooter(brane, model.kappa_sq, sourced=model.source)
+    return _SHOOTERS[key]
+
+
+def _gradients(sh: EMDShooter, q, step: float, ss, cnt):
+    """Gradients of the observables ``(x, j, s_hat, rho_hat)`` in ``(phi0, u)``: central differences
+    with steps h and 2h, Richardson-extrapolated (error O(h^4)); returns (G (4, 2), error estimate)."""
+    cols, errs = [], []
+    for k in range(2):
+        h = np.zeros(2)
+        h[k] = step * (max(1.0, abs(q[k])) if k == 0 else 1.0)
+        diffs = []
+        for hh in (h, 2 * h):
+            op, om = sh.observe(q + hh, ss, cnt), sh.observe(q - hh, ss, cnt)
+            if op is None or om is None:
+                raise ArithmeticError("a derivative shot failed")
+            diffs.append((op - om) / (2 * hh[k]))
+        cols.append((4 * diffs[0] - diffs[1]) / 3)
+        errs.append(np.abs(diffs[0] - diffs[1]) / 3)
+    return np.column_stack(cols), np.column_stack(errs)
+
+
+def _family_derivatives(sh: EMDShooter, q, step: float, ss, cnt):
+    """d/dtau of (x, j, s_hat, rho_hat) along the j = 0 family at q (tangent (dj/du, -dj/dphi0)),
+    exact given the gradients, and a relative error estimate."""
+    G, E = _gradients(sh, q, step, ss, cnt)
+    t = np.array([G[1, 1], -G[1, 0]])
+    t /= np.linalg.norm(t)
+    d = G @ t
+    err = (E @ np.abs(t)) / np.maximum(np.abs(d), 1e-300)
+    return d, float(np.max(err[[0, 2, 3]]))
+
+
+def solve_family(model: EMDModel, sh: EMDShooter, T: float, mu: float, settings: SolverSettings):
+    """Every brane of the unsourced family at (T, mu)."""
+    t0 = time.perf_counter()
+    d = D_BOUNDARY
+    x = abs(mu) / T
+    sign = -1.0 if mu < 0 else 1.0
+    ss = settings.shoot_settings()
+    cnt = Counters()
+    common = dict(model_id=model.id, kind=model.kind, d=d, method="shooting", T=T, mu=mu, rtol=ss.rtol, atol=ss.atol)
+    roots = find_branches(sh, 1.0, x, ss, cnt)
+    if not roots:
+        return [PointResult(**common, status=Status.NO_SOLUTION,
+                            message=f"no brane of this family has mu/T = {x:.6g}", nfev=cnt.nfev,
+                            nsteps=cnt.nsteps, niter=cnt.shots, wall_time=time.perf_counter() - t0)]
+    out = []
+    tight = ShootSettings(rtol=max(ss.rtol / 100, 2.3e-14), horizon_offset=ss.horizon_offset)
+    for b, (q, fnorm, niter, o) in enumerate(roots):
+        try:
+            if sh.observe(q, ss, cnt, record=True) is None:
+                raise ArithmeticError("the solution shot failed on repetition")
+            deriv, deriv_err = _family_derivatives(sh, q, settings.fd_step, _fd_settings(ss), cnt)
+        except ArithmeticError as exc:
+            out.append(PointResult(**common, branch=b, status=Status.FAILED, message=str(exc)))
+            continue
+        ot = sh.observe(q, tight, None)
+        xs, sh_, rh = o[0], o[2], o[3]
+        s, rho = sh_ * T ** (d - 1), rh * T ** (d - 1)
+        P = (T * s + x * T * rho) / d
+        # Jacobians in units T = 1: columns (family tangent, scaling)
+        Jt = np.array([[0.0, 1.0], [deriv[0], xs]])
+        Jd = np.array([[deriv[2], (d - 1) * sh_], [deriv[3], (d - 1) * rh]])
+        P_TT, P_Tmu, P_mumu, maxwell = hessian_from_jacobians(Jt, Jd)
+        f2 = T ** (d - 2)
+        P_TT, P_Tmu, P_mumu = P_TT * f2, P_Tmu * f2, P_mumu * f2
+        cs2 = cs2_from_hessian(T, x * T, s, rho, P_TT, P_Tmu, P_mumu)
+        stable = P_TT > 0 and P_TT * P_mumu - P_Tmu**2 > 0
+        err = math.nan if ot is None else float(np.max(np.abs(ot[[0, 2, 3]] - o[[0, 2, 3]]) / np.abs(ot[[0, 2, 3]]).clip(1e-300)))
+        problems = []
+        if not err <= settings.accept_error:
+            problems.append(f"estimated error {err:.3g} > accept_error {settings.accept_error:g}")
+        if not cnt.residual <= settings.accept_error:
+            problems.append(f"field-equation residual {cnt.residual:.3g} > {settings.accept_error:g}")
+        out.append(PointResult(
+            **common, s=s, rho=sign * rho, epsilon=(d - 1) * P, P=P, chi2=P_mumu, cs2=cs2, branch=b,
+            status=Status.NOT_CONVERGED if problems else Status.OK,
+            message="; ".join(problems) or f"converged: |F| = {fnorm:.2e} after {niter} Newton steps",
+            nfev=cnt.nfev, nsteps=cnt.nsteps, niter=niter, residual=cnt.residual, error_estimate=err,
+            wall_time=time.perf_counter() - t0,
+            extra={"stability": "stable" if stable else "unstable", "horizon_phi0": float(q[0]),
+                   "horizon_u": float(q[1]) * sign, "target_mismatch": fnorm, "deriv_error": deriv_err,
+                   "maxwell_mismatch": maxwell, "trace_anomaly": 0.0, "shots": cnt.shots},
+        ))
+    return out
+
+
+def _physical(o: np.ndarray, d: int, D: float) -> np.ndarray:
+    """(x, j, s/T^(d-1), rho/T^(d-1)) -> (T, mu, s, rho) in units of the source."""
+    T = o[1] ** (-1.0 / (d - D))
+    return np.array([T, o[0] * T, o[2] * T ** (d - 1), o[3] * T ** (d - 1)])
+
+
+def _pressure_reference(sh: EMDShooter, ss) -> ZeroDensityPressure:
+    if "P0" not in sh.cache:
+        d, D = sh.brane.d, sh.brane.delta
+
+        def samples(phi0s):
+            out = []
+            for p in phi0s:
+                o = sh.observe((p, 0.0), ss)
+                out.append(_physical(o, d, D)[[0, 2]] if o is not None else [np.nan, np.nan])
+            return np.array(out)
+
+        try:
+            sh.cache["P0"] = ZeroDensityPressure(samples, 1e-3, sh.phi0_max)
+        except ArithmeticError as exc:
+            sh.cache["P0"] = exc
+    return sh.cache["P0"]
+
+
+def _route(sh, q_start, q_end, ss, cnt, n=20) -> float:
+    """First-law integral along the straight line from q_start to q_end in (log phi0, u)."""
+    d, D = sh.brane.d, sh.brane.delta
+    z = (lobatto(n) + 1.0) / 2.0
+    l0, l1 = math.log(q_start[0]), math.log(q_end[0])
+    pts = []
+    for t in z:
+        o = sh.observe((math.exp(l0 + t * (l1 - l0)), q_start[1] + t * (q_end[1] - q_start[1])), ss, cnt)
+        if o is None:
+            raise ArithmeticError("a shot on the pressure path failed")
+        pts.append(_physical(o, d, D))
+    X = np.array(pts)
+    return path_integral(X[:, 0], X[:, 1], X[:, 2], X[:, 3], n)
+
+
+def solve_sourced(model: EMDModel, sh: EMDShooter, T: float, mu: float, settings: SolverSettings):
+    """Every brane of a sourced model at (T, mu) (config units; energy unit ``energy_scale``)."""
+    t0 = time.perf_counter()
+    d, D, L = D_BOUNDARY, sh.brane.delta, model.energy_scale
+    x = abs(mu) / T
+    sign = -1.0 if mu < 0 else 1.0
+    ss = settings.shoot_settings()
+    cnt = Counters()
+    common = dict(model_id=model.id, kind=model.kind, d=d, method="shooting", T=T, mu=mu, rtol=ss.rtol, atol=ss.atol)
+    roots = find_branches(sh, T / L, x, ss, cnt)
+    if not roots:
+        return [PointResult(**common, status=Status.NO_SOLUTION,
+                            message=f"no brane of this model at T/Lambda = {T / L:.6g}, mu/T = {x:.6g} "
+                                    f"(horizon data scanned up to phi0 = {sh.phi0_max:g})",
+                            nfev=cnt.nfev, nsteps=cnt.nsteps, niter=cnt.shots, wall_time=time.perf_counter() - t0)]
+    P0 = _pressure_reference(sh, ss)
+    tight = ShootSettings(rtol=max(ss.rtol / 100, 2.3e-14), horizon_offset=ss.horizon_offset)
+    out = []
+    for b, (q, fnorm, niter, o) in enumerate(roots):
+        try:
+            o = sh.observe(q, ss, cnt, record=True)
+            if o is None:
+                raise ArithmeticError("the solution shot failed on repetition")
+            X = _physical(o, d, D)
+            cols = []
+            for k in range(2):
+                e = np.zeros(2)
+                e[k] = settings.fd_step * max(1.0, abs(q[k]))
+                diffs = []
+                for h in (e, 2 * e):
+                    op, om = sh.observe(q + h, _fd_settings(ss), cnt), sh.observe(q - h, _fd_settings(ss), cnt)
+                    if op is None or om is None:
+                        raise ArithmeticError("a derivative shot failed")
+                    diffs.append((_physical(op, d, D) - _physical(om, d, D)) / (2 * h[k]))
+                cols.append(((4 * diffs[0] - diffs[1]) / 3, np.max(np.abs(diffs[0] - diffs[1]) / 3)))
+            J = np.column_stack([c[0] for c in cols])
+            P_TT, P_Tmu, P_mumu, maxwell = hessian_from_jacobians(J[:2], J[2:])
+            if isinstance(P0, Exception):
+                raise ArithmeticError(str(P0))
+            qa = np.array([abs(q[0]), abs(q[1])])
+            P1 = P0(qa[0]) + _route(sh, (qa[0], 0.0), qa, ss, cnt)
+            shift = 0.4 if qa[0] * math.exp(0.4) < sh.phi0_max else -0.4
+            qs = (qa[0] * math.exp(shift), 0.0)
+            P2 = P0(qs[0]) + _route(sh, qs, qa, ss, cnt)
+        except ArithmeticError as exc:
+            out.append(PointResult(**common, branch=b, status=Status.FAILED, message=str(exc),
+                                   nfev=cnt.nfev, nsteps=cnt.nsteps, niter=niter, wall_time=time.perf_counter() - t0))
+            continue
+        That, muhat, shat, rhohat = X
+        s, rho, P = shat * L ** (d - 1), rhohat * L ** (d - 1), P1 * L**d
+        f2 = L ** (d - 2)
+        P_TT, P_Tmu, P_mumu = P_TT * f2, P_Tmu * f2, P_mumu * f2
+        eps = T * s + x * T * rho - P
+        cs2 = cs2_from_hessian(T, x * T, s, rho, P_TT, P_Tmu, P_mumu)
+        stable = P_TT > 0 and P_TT * P_mumu - P_Tmu**2 > 0
+        ot = sh.observe(q, tight, None)
+        err = math.nan if ot is None else float(np.max(np.abs(_physical(ot, d, D) - X) / np.abs(_physical(ot, d, D)).clip(1e-300)))
+        P_mismatch = abs(P1 - P2) / max(abs(P1), 1e-300)
+        total = max(err, P_mismatch)
+        problems = []
+        if not total <= settings.accept_error:
+            problems.append(f"estimated error {total:.3g} > accept_error {settings.accept_error:g}")
+        if not cnt.residual <= settings.accept_error:
+            problems.append(f"field-equation residual {cnt.residual:.3g} > {settings.accept_error:g}")
+        out.append(PointResult(
+            **common, s=s, rho=sign * rho, epsilon=eps, P=P, chi2=P_mumu, cs2=cs2, branch=b,
+            status=Status.NOT_CONVERGED if problems else Status.OK,
+            message="; ".join(problems) or f"converged: |F| = {fnorm:.2e} after {niter} Newton steps",
+            nfev=cnt.nfev, nsteps=cnt.nsteps, niter=niter, residual=cnt.residual, error_estimate=total,
+            wall_time=time.perf_counter() - t0,
+            extra={"stability": "stable" if stable else "unstable", "horizon_phi0": float(q[0]),
+                   "horizon_u": float(q[1]) * sign, "target_mismatch": fnorm, "P_route2": P2 * L**d,
+                   "P_mismatch": P_mismatch, "trace_anomaly": (eps - 3 * P) / T**4,
+                   "deriv_error": max(c[1] for c in cols), "maxwell_mismatch": maxwell,
+                   "P_reference_power": P0.k_ref, "shots": cnt.shots},
+        ))
+    return out
