@@ -24,7 +24,7 @@ from .bulk.charged_brane import ChargedBrane, HorizonData
 from .engine import ShootSettings, shoot
 from .result import PointResult, Status
 from .settings import SolverSettings
-from .thermo import cs2_from_hessian, hessian_from_jacobians
+from .thermo import cs2_from_hessian, hessian_from_jacobians, local_stability
 
 _DENSITIES = ("s", "rho", "epsilon", "P")
 
@@ -151,6 +151,8 @@ def solve_unsourced(brane: ChargedBrane, kappa_sq: float, T: float, mu: float, s
     return PointResult(
         **common,
         s=s, rho=sign * rho, epsilon=vals["epsilon"], P=vals["P"], chi2=P_mumu, cs2=cs2,
+        P_check=(T * s + x * T * rho) / d, trace_anomaly=(vals["epsilon"] - (d - 1) * vals["P"]) / T**d,
+        stability=local_stability(P_TT, P_Tmu, P_mumu),
         status=status, message=message, nfev=cnt.nfev + tight_cnt.nfev, nsteps=cnt.nsteps + tight_cnt.nsteps,
         niter=niter, residual=residual, error_estimate=err, wall_time=time.perf_counter() - t0,
         extra={"horizon_Phi1": sign * u * Phi_max, "deriv_error": deriv_err, "maxwell_mismatch": maxwell,

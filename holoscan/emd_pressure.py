@@ -40,31 +40,42 @@ def path_integral(T, mu, s, rho, n: int) -> float:
 
 
 class ZeroDensityPressure:
-    """``P(phi0)`` along ``mu = 0`` as a Chebyshev series in ``log phi0``, anchored at large ``phi0``.
+    """``P(phi0)`` along ``mu = 0``, anchored at large ``phi0`` (low T).
 
     ``samples(phi0_array)`` must return an array (n, 2) of ``(T, s)`` in source units at ``u = 0``.
+    Along ``mu = 0`` the first law in the scale-free form ``p = P/T^4``, ``sigma = s/T^3``,
+    ``L = log T`` reads ``dp/dL = sigma - 4 p``; it is integrated from the low-T reference towards
+    high T, where it is stable (``p`` relaxes towards ``sigma/4``), on Chebyshev interpolants of
+    ``L`` and ``sigma`` in ``log phi0`` (``n`` Lobatto nodes).
     """
 
     def __init__(self, samples, phi0_lo: float, phi0_hi: float, n: int = 64):
+        from scipy.integrate import solve_ivp
+
         self.lo, self.hi, self.n = math.log(phi0_lo), math.log(phi0_hi), n
         tau = self._tau(lobatto(n))
         Ts = samples(np.exp(tau))
         if not np.all(np.isfinite(Ts)) or np.any(Ts <= 0):
             raise ArithmeticError("a zero-density shot failed while building the pressure reference")
-        lT, ls = np.log(Ts[:, 0]), np.log(Ts[:, 1])
-        clT, cls_ = _fit(lT, n), _fit(ls, n)
-        dlT = C.chebval(lobatto(n), C.chebder(clT))  # d log T / dz, z in [-1, 1]
-        slope = dlT[-1]
-        if not slope < 0:
+        L, sigma = np.log(Ts[:, 0]), Ts[:, 1] / Ts[:, 0] ** 3
+        self._cL, self._cs = _fit(L, n), _fit(sigma, n)
+        cdL = C.chebder(self._cL)
+        if not C.chebval(1.0, cdL) < 0:
             raise ArithmeticError("T does not fall towards 0 along mu = 0 at large phi0: no pressure reference")
-        k = C.chebval(1.0, C.chebder(cls_)) / slope
-        T_b, s_b = Ts[-1]
-        self.P_ref = s_b * T_b / (k + 1.0)
-        self.k_ref = k
-        g = _fit(Ts[:, 1] * Ts[:, 0] * dlT, n)  # s dT/dz
-        self._G = C.chebint(g)
-        self._G_end = C.chebval(1.0, self._G)
-        self.tail = float(np.max(np.abs(g[-4:])) / max(np.max(np.abs(g)), 1e-300))  # spectral convergence
+        # reference: s ~ T^k at the low-T end, so P = s T / (k + 1), p = sigma / (k + 1)
+        dlog_sigma = C.chebval(1.0, C.chebder(_fit(np.log(sigma), n)))
+        k = 3.0 + dlog_sigma / C.chebval(1.0, cdL)
+        self.k_ref = float(k)
+        p_ref = sigma[-1] / (k + 1.0)
+
+        def rhs(z, p):
+            return (C.chebval(z, self._cs) - 4.0 * p) * C.chebval(z, cdL)
+
+        sol = solve_ivp(rhs, (1.0, -1.0), [p_ref], method="DOP853", rtol=1e-12, atol=1e-14, dense_output=True)
+        if sol.status != 0:
+            raise ArithmeticError("the zero-density pressure integration failed")
+        self._p = sol.sol
+        self.tail = float(np.max(np.abs(self._cs[-4:])) / max(np.max(np.abs(self._cs)), 1e-300))
 
     def _tau(self, z):
         return 0.5 * (self.hi - self.lo) * (z + 1.0) + self.lo
@@ -73,7 +84,9 @@ class ZeroDensityPressure:
         return 2.0 * (math.log(phi0) - self.lo) / (self.hi - self.lo) - 1.0
 
     def __call__(self, phi0: float) -> float:
+        """P at (phi0, u = 0), in source units."""
         z = self._z(phi0)
         if not -1.0 - 1e-12 <= z <= 1.0 + 1e-12:
             raise ArithmeticError(f"phi0 = {phi0:.6g} outside the pressure reference range")
-        return float(self.P_ref + C.chebval(z, self._G) - self._G_end)
+        z = min(max(z, -1.0), 1.0)
+        return float(self._p(z)[0] * math.exp(4.0 * C.chebval(z, self._cL)))

@@ -27,6 +27,7 @@ import numpy as np
 from .bulk.charged_brane import HorizonData
 from .bulk.scalar_brane import ScalarBrane
 from .engine import ShootSettings, shoot
+from .engine.batch import dop853_batch
 from .result import PointResult, Status
 from .settings import SolverSettings
 from .thermo import cs2_from_hessian, hessian_from_jacobians
@@ -74,27 +75,48 @@ class EMDShooter:
 
     def observe(self, q, ss: ShootSettings, cnt: Counters | None = None, record: bool = False,
                 brane: ScalarBrane | None = None) -> np.ndarray | None:
-        """Observables at horizon data q, or None. ``record`` adds the shot's field-equation residual
-        and boundary frame mismatch to ``cnt.residual`` (done for the shots a result is made of)."""
-        phi0, u = float(q[0]), float(q[1])
-        try:
-            hd = HorizonData(phi0, u * self.Phi1_max(phi0))
-        except (ValueError, OverflowError):
-            return None
+        """Observables at one horizon datum q, or None (see :meth:`observe_many`)."""
+        o = self.observe_many([q], ss, cnt, record, brane)[0]
+        return o if np.all(np.isfinite(o)) else None
+
+    def observe_many(self, Q, ss: ShootSettings, cnt: Counters | None = None, record: bool = False,
+                     brane: ScalarBrane | None = None) -> np.ndarray:
+        """Observables ``(x, j, s_hat, rho_hat)`` at many horizon data ``Q`` (shape (B, 2)) in one
+        batched integration (rows of NaN where a shot failed). The integration variable is the warp
+        factor ``A`` itself, so every column ends exactly at ``A_end``."""
         brane = brane or self.brane
-        shot = shoot(brane, hd, ss, want_residual=record)
+        Q = np.atleast_2d(np.asarray(Q, dtype=float))
+        nb = len(Q)
+        y0 = np.full((8, nb), np.nan)
+        for b, (p, w) in enumerate(Q):
+            try:
+                y0[:, b] = brane.start_state(HorizonData(p, w * self.Phi1_max(p)), ss.horizon_offset)
+            except (ValueError, OverflowError, ZeroDivisionError):
+                pass
+        good = np.all(np.isfinite(y0), axis=0)
+        out = np.full((nb, 4), np.nan)
+        if not np.any(good):
+            return out
+        yg = y0[:, good]
+
+        def fun(y):
+            return brane.rhs(None, y) / y[1]
+
+        res = dop853_batch(fun, yg[0], yg, brane.A_end, ss.rtol, monitor=(lambda y: brane.residual(None, y)) if record else None)
         if cnt is not None:
-            cnt.nfev += shot.nfev
-            cnt.nsteps += shot.nsteps
-            cnt.shots += 1
-        if not shot.ok:
-            return None
-        b = brane.boundary_dimensionless(shot.y_end, self.kappa_sq)
-        out = np.array([b["x"], b["j"], b["s_hat"], b["rho_hat"]])
-        if not np.all(np.isfinite(out)):
-            return None
-        if record and cnt is not None:
-            cnt.residual = max(cnt.residual, shot.residual, b["frame_mismatch"])
+            cnt.nfev += int(res.nfev.sum())
+            cnt.nsteps += int(res.nsteps.sum())
+            cnt.shots += int(good.sum())
+        cols = np.flatnonzero(good)
+        for k, b in enumerate(cols):
+            if not res.ok[k]:
+                continue
+            o = brane.boundary_dimensionless(res.y[:, k], self.kappa_sq)
+            row = np.array([o["x"], o["j"], o["s_hat"], o["rho_hat"]])
+            if np.all(np.isfinite(row)):
+                out[b] = row
+                if record and cnt is not None:
+                    cnt.residual = max(cnt.residual, float(res.residual[k]), o["frame_mismatch"])
         return out
 
     def grid(self) -> Grid:
@@ -105,13 +127,9 @@ class EMDShooter:
             ss = ShootSettings(rtol=1e-6)
             coarse = ScalarBrane(self.brane.d, self.brane.V, self.brane.f, self.brane.delta,
                                  A_end=min(self.brane.A_end, 10.0))  # seeds only: a shorter run suffices
-            obs = np.full((len(phi0), len(u), 4), np.nan)
-            for i, p in enumerate(phi0):
-                for m, w in enumerate(u):
-                    o = self.observe((p, w), ss, brane=coarse)
-                    if o is not None:
-                        obs[i, m] = o
-            self._grid = Grid(phi0, u, obs)
+            P, W = np.meshgrid(phi0, u, indexing="ij")
+            obs = self.observe_many(np.column_stack([P.ravel(), W.ravel()]), ss, brane=coarse)
+            self._grid = Grid(phi0, u, obs.reshape(len(phi0), len(u), 4))
         return self._grid
 
     # -- residual of a target -----------------------------------------------------------------------
@@ -168,17 +186,11 @@ def _newton(sh: EMDShooter, q, T_hat, x, ss, cnt, tol=1e-12, accept=1e-8, maxite
         nF = float(np.max(np.abs(F)))
         if nF < tol:
             return q, nF, it - 1, o
-        J = np.empty((2, 2))
-        for k in range(2):
-            dq = np.zeros(2)
-            dq[k] = 1e-7 * max(1.0, abs(q[k]))
-            ok = sh.observe(q + dq, ss, cnt)
-            if ok is None:
-                dq[k] = -dq[k]
-                ok = sh.observe(q + dq, ss, cnt)
-                if ok is None:
-                    return None
-            J[:, k] = (sh.residual(ok, T_hat, x) - F) / dq[k]
+        dq = np.array([1e-7 * max(1.0, abs(q[0])), 1e-7])
+        pts = sh.observe_many([q + [dq[0], 0.0], q + [0.0, dq[1]]], ss, cnt)
+        if not np.all(np.isfinite(pts)):
+            return None
+        J = np.column_stack([(sh.residual(pts[k], T_hat, x) - F) / dq[k] for k in range(2)])
         try:
             step = np.linalg.solve(J, -F)
         except np.linalg.LinAlgError:
@@ -204,20 +216,18 @@ def _newton(sh: EMDShooter, q, T_hat, x, ss, cnt, tol=1e-12, accept=1e-8, maxite
     return (q, nF, maxiter, o) if nF < accept else None
 
 
-def family_curve(sh: EMDShooter) -> np.ndarray:
+def family_curve(sh: EMDShooter, iterations: int = 6) -> np.ndarray:
     """Unsourced models: points ``(phi0, u, x)`` on the ``j = 0`` family, one per coarse ``phi0`` node.
 
-    At each node the first sign change of ``j`` along the coarse ``u`` nodes is refined by Brent's
-    method (loose tolerance, short runs): these are seeds only.
+    At each node the first sign change of ``j`` along the coarse ``u`` nodes is refined by a few
+    batched regula-falsi (Illinois) steps at loose tolerance: these points are seeds only.
     """
     if "family" in sh.cache:
         return sh.cache["family"]
-    from scipy.optimize import brentq
-
     g = sh.grid()
     ss = ShootSettings(rtol=1e-6)
     coarse = ScalarBrane(sh.brane.d, sh.brane.V, sh.brane.f, sh.brane.delta, A_end=min(sh.brane.A_end, 10.0))
-    pts = []
+    exact, brackets = [], []
     for i, p in enumerate(g.phi0):
         js = g.obs[i, :, 1]
         for m in range(len(g.u) - 1):
@@ -225,22 +235,33 @@ def family_curve(sh: EMDShooter) -> np.ndarray:
             if not (np.isfinite(a) and np.isfinite(b)):
                 break
             if a == 0.0:
-                pts.append((p, g.u[m], g.obs[i, m, 0]))
+                exact.append((p, g.u[m], g.obs[i, m, 0]))
                 break
             if a * b < 0:
-                def jfun(w):
-                    o = sh.observe((p, w), ss, brane=coarse)
-                    return np.nan if o is None else o[1]
-                try:
-                    w = brentq(jfun, g.u[m], g.u[m + 1], xtol=1e-10)
-                except ValueError:
-                    break
-                o = sh.observe((p, w), ss, brane=coarse)
-                if o is not None:
-                    pts.append((p, w, o[0]))
+                brackets.append([p, g.u[m], g.u[m + 1], a, b])
                 break
-    sh.cache["family"] = np.array(pts).reshape(-1, 3)
-    return sh.cache["family"]
+    pts = list(exact)
+    if brackets:
+        br = np.array(brackets)
+        for _ in range(iterations):
+            w = br[:, 1] - br[:, 3] * (br[:, 2] - br[:, 1]) / (br[:, 4] - br[:, 3])
+            o = sh.observe_many(np.column_stack([br[:, 0], w]), ss, brane=coarse)
+            jw = o[:, 1]
+            left = np.sign(jw) == np.sign(br[:, 3])
+            # Illinois: halve the value kept at the stale end
+            br[:, 4] = np.where(left, br[:, 4] * 0.5, br[:, 4])
+            br[:, 3] = np.where(~left, br[:, 3] * 0.5, br[:, 3])
+            br[:, 1] = np.where(left, w, br[:, 1])
+            br[:, 3] = np.where(left, jw, br[:, 3])
+            br[:, 2] = np.where(~left, w, br[:, 2])
+            br[:, 4] = np.where(~left, jw, br[:, 4])
+        last = sh.observe_many(np.column_stack([br[:, 0], w]), ss, brane=coarse)
+        for k in range(len(br)):
+            if np.all(np.isfinite(last[k])):
+                pts.append((br[k, 0], w[k], last[k, 0]))
+    fam = np.array(sorted(pts)).reshape(-1, 3)
+    sh.cache["family"] = fam
+    return fam
 
 
 def _family_seeds(sh: EMDShooter, x: float) -> list[np.ndarray]:
@@ -258,10 +279,13 @@ def find_branches(sh: EMDShooter, T_hat: float, x: float, ss: ShootSettings, cnt
     """All roots ``q`` of the target; list of (q, |F|, iterations, observables), sorted by phi0."""
     roots = []
     seeds = _seeds(sh, T_hat, x) if sh.sourced else _family_seeds(sh, x)
+    loose = ShootSettings(rtol=max(ss.rtol, 1e-7), horizon_offset=ss.horizon_offset)
     for seed in seeds:
         if any(np.max(np.abs(seed - r[0])) < 1e-3 for r in roots):
             continue  # a neighbouring triangle already led to this root
-        r = _newton(sh, seed, T_hat, x, ss, cnt)
+        # cheap iterations at a loose tolerance first, then polish at the requested one
+        r0 = _newton(sh, seed, T_hat, x, loose, cnt, tol=1e-8, accept=1e-5)
+        r = _newton(sh, r0[0] if r0 is not None else seed, T_hat, x, ss, cnt)
         if r is None:
             continue
         q = r[0]

@@ -782,6 +782,17 @@ class ParsedCoupling:
                     d2 = _blend(near, _horner(self._c2, x), d2)
         return v, d1, d2
 
+    def derivs1(self, phi):
+        """``(f, f')`` only: what the field equations need, at two thirds of the cost of :meth:`derivs`."""
+        v, d1 = _evaluate((self.expr, self._d1), phi)
+        if self._series:
+            x = np.asarray(phi, dtype=float)
+            near = np.abs(x) < self.SERIES_RADIUS
+            if np.any(near):
+                with np.errstate(all="ignore"):
+                    d1 = _blend(near, _horner(self._c1, x), d1)
+        return v, d1
+
     def __eq__(self, other):
         return isinstance(other, ParsedCoupling) and self.expr is other.expr
 

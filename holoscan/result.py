@@ -32,6 +32,9 @@ class PointResult:
     charge density conjugate to ``mu`` (``rho = dP/dmu`` at fixed T); ``chi2 = d rho / d mu`` at fixed T;
     ``cs2 = (dP/d epsilon)`` at fixed s/rho. The reduced ratios use the boundary dimension ``d``:
     ``s_hat = s/T^(d-1)``, ``rho_hat = rho/T^(d-1)``, ``P_hat = P/T^d``, ``chi2_hat = chi2/T^(d-2)``.
+    ``P_check`` is the pressure by a second, independent route (see each model kind), and
+    ``trace_anomaly = (epsilon - (d-1) P) / T^d``. ``stability`` is ``stable`` when the Hessian of P
+    in (T, mu) is positive definite (positive specific heat and chi2 > 0), else ``unstable``.
     Observables of a failed solve are NaN and ``status`` says why.
     """
 
@@ -47,7 +50,10 @@ class PointResult:
     P: float = math.nan
     chi2: float = math.nan
     cs2: float = math.nan
+    P_check: float = math.nan
+    trace_anomaly: float = math.nan
     branch: int = 0
+    stability: str = ""
     status: Status = Status.OK
     message: str = ""
     rtol: float = math.nan

@@ -24,6 +24,11 @@ def cs2_from_hessian(T, mu, s, rho, P_TT, P_Tmu, P_mumu):
     return num / ((T * s + mu * rho) * det)
 
 
+def local_stability(P_TT, P_Tmu, P_mumu) -> str:
+    """``stable`` if the Hessian of P in (T, mu) is positive definite, else ``unstable``."""
+    return "stable" if P_TT > 0 and P_TT * P_mumu - P_Tmu**2 > 0 else "unstable"
+
+
 def hessian_from_jacobians(J_targets: np.ndarray, J_densities: np.ndarray):
     """Hessian of ``P`` from derivatives of ``(T, mu)`` and ``(s, rho)`` along two directions.
 

@@ -62,7 +62,7 @@ def test_stable_and_unstable_branches_match_closed_form(model):
             assert r.s == pytest.approx(s, rel=1e-6)
             assert r.rho == pytest.approx(rho, rel=1e-6)
             assert r.chi2 == pytest.approx(chi2, rel=1e-6)
-            assert r.extra["stability"] == ("stable" if branch == 0 else "unstable")
+            assert r.stability == ("stable" if branch == 0 else "unstable")
 
 
 def test_bound_on_mu_over_T(model):

@@ -40,6 +40,15 @@ class Coupling(Protocol):
     def derivs(self, phi): ...  # -> (value, first, second)
 
 
+def _derivs1(coupling, phi):
+    """Value and first derivative (a coupling may offer a cheaper ``derivs1``)."""
+    fast = getattr(coupling, "derivs1", None)
+    if fast is not None:
+        return fast(phi)
+    v, d1, _ = coupling.derivs(phi)
+    return v, d1
+
+
 @dataclass(frozen=True)
 class Constant:
     """A constant coupling ``c`` (derivatives zero)."""
@@ -88,8 +97,8 @@ class ChargedBrane:
             return self._rhs_scalar(y)
         d = self.d
         A, dA, h, dh, _, dPh, ph, dph = y
-        V, Vp, _ = self.V.derivs(ph)
-        f, fp, _ = self.f.derivs(ph)
+        V, Vp = _derivs1(self.V, ph)
+        f, fp = _derivs1(self.f, ph)
         e2A = np.exp(-2.0 * A)
         ddA = -dph * dph / (2.0 * (d - 1))
         ddh = -d * dA * dh + e2A * f * dPh * dPh
@@ -101,8 +110,8 @@ class ChargedBrane:
         """The same right-hand side for one state, in plain floats (several times faster)."""
         d = self.d
         A, dA, h, dh, _, dPh, ph, dph = y.tolist()
-        V, Vp, _ = self.V.derivs(ph)
-        f, fp, _ = self.f.derivs(ph)
+        V, Vp = _derivs1(self.V, ph)
+        f, fp = _derivs1(self.f, ph)
         e2A = math.exp(-2.0 * A)
         E = e2A * dPh * dPh
         return np.array([

@@ -15,8 +15,10 @@ units of the temperature, which removes the unknown frame shift ``A0 = lim (A - 
     j = J / T^(d-Delta) = a (4 pi sqrt(h_inf))^(d-Delta)       (dimensionless source)
 
 (the horizon gauge ``A(0) = 0``, ``h'(0) = 1`` gives ``T = 1/(4 pi e^{A0} sqrt(h_inf))``). The
-integration stops where ``A = A_end``, far enough out that the non-linear corrections to the
-falloff, of relative size ``e^{-(d-Delta) A_end}``, are below double precision.
+integration stops where ``A = A_end``. The first non-linear correction to the falloff,
+``c2 a^2 e^{-2(d-Delta)A}`` with ``c2 = V3 / (2 (d-Delta)(2d - 3 Delta))`` (``V3`` the third
+derivative of V at 0; from the scalar equation near the boundary), is removed, and
+``A_end = 18/(d - Delta)`` leaves the next one below ``1e-15`` relative.
 """
 from __future__ import annotations
 
@@ -27,14 +29,31 @@ import numpy as np
 from .charged_brane import ChargedBrane
 
 
+def _third_derivative_at_0(V) -> float:
+    """The third derivative of V at 0 from a coupling's Taylor coefficients (0 without them)."""
+    taylor = getattr(V, "taylor0", None)
+    if taylor is None:
+        return 0.0
+    return float(taylor(3)[2])
+
+
 class ScalarBrane(ChargedBrane):
     """Charged brane with a scalar of dimension ``delta`` (``d/2 <= delta < d``)."""
 
     def __init__(self, d, V, f, delta: float, A_end: float | None = None):
         super().__init__(d, V, f)
         self.delta = float(delta)
-        gap = d - self.delta if self.delta > d / 2 else d / 2
-        self.A_end = float(A_end) if A_end is not None else max(10.0, 30.0 / gap)
+        k = d - self.delta
+        if abs(self.delta - d / 2) < 1e-12:
+            self.c2 = 0.0
+            default_end = 15.0  # corrections e^{-dA} A^2: below 1e-22 at A = 15
+        else:
+            # phi = a e^{-kA} + c2 a^2 e^{-2kA} + ...: the quadratic term comes from the cubic term
+            # of V; it is removed below, so the remaining relative error is O(a^2 e^{-2kA})
+            V3 = _third_derivative_at_0(V)
+            self.c2 = V3 / (2.0 * k * (2 * d - 3 * self.delta)) if V3 else 0.0
+            default_end = max(10.0, 18.0 / k)
+        self.A_end = float(A_end) if A_end is not None else default_end
 
     def end_point(self, hd) -> float:
         return 1e6 * self.A_end / self.horizon_slope(hd)  # an upper bound; the event ends it
@@ -56,7 +75,10 @@ class ScalarBrane(ChargedBrane):
         if abs(D - d / 2) < 1e-12:
             a = (dph + 0.5 * d * dA * ph) * math.exp(0.5 * d * A) / dA
         else:
-            a = (D * ph + dph / dA) * math.exp((d - D) * A) / (2 * D - d)
+            k = d - D
+            a = (D * ph + dph / dA) * math.exp(k * A) / (2 * D - d)
+            if self.c2:
+                a -= self.c2 * a * a * (D - 2 * k) / (2 * D - d) * math.exp(-k * A)
         return {
             "x": 4.0 * math.pi * (Ph + dPh / ((d - 2) * dA)),
             "j": a * sq ** (d - D),

@@ -35,7 +35,7 @@ from ..conformal import solve_unsourced
 from ..errors import InputError
 from ..result import PointResult, Status
 from ..settings import SolverSettings
-from ..thermo import cs2_from_hessian
+from ..thermo import cs2_from_hessian, local_stability
 
 
 @dataclass(frozen=True)
@@ -100,9 +100,11 @@ class RNModel:
         P_TT = 2 * math.pi * (d - 1) * rh ** (d - 2) * r_T / k2
         P_Tmu = 2 * math.pi * (d - 1) * rh ** (d - 2) * r_mu / k2
         P_mumu = (d - 2) / e2 * (rh ** (d - 2) + mu * (d - 2) * rh ** (d - 3) * r_mu)
+        eps, P = (d - 1) * M / (2 * k2), M / (2 * k2)
         return PointResult(
             model_id=self.id, kind=self.kind, d=d, method="closed-form", T=T, mu=mu,
-            s=s, rho=rho, epsilon=(d - 1) * M / (2 * k2), P=M / (2 * k2), chi2=P_mumu,
+            s=s, rho=rho, epsilon=eps, P=P, chi2=P_mumu, P_check=(T * s + mu * rho) / d,
+            trace_anomaly=(eps - (d - 1) * P) / T**d, stability=local_stability(P_TT, P_Tmu, P_mumu),
             cs2=cs2_from_hessian(T, mu, s, rho, P_TT, P_Tmu, P_mumu),
             status=Status.OK, message="closed form", rtol=0.0, atol=0.0, residual=0.0, error_estimate=0.0,
             wall_time=time.perf_counter() - t0, extra={"r_h": rh},

@@ -9,7 +9,7 @@ import math
 
 import pyarrow as pa
 
-SCHEMA_VERSION = "1.0"
+SCHEMA_VERSION = "1.1"
 META_KEY = b"holoscan"
 
 F64, I64, STR = pa.float64(), pa.int64(), pa.string()
@@ -29,6 +29,9 @@ COLUMNS = [
     ("Omega", F64, "E^d", "grand potential density, -P"),
     ("chi2", F64, "E^(d-2)", "charge susceptibility d rho/d mu at fixed T"),
     ("cs2", F64, "1", "speed of sound squared, dP/d epsilon at fixed s/rho"),
+    ("P_check", F64, "E^d", "pressure by a second independent route (per model kind)"),
+    ("trace_anomaly", F64, "1", "(epsilon - (d-1) P) / T^d"),
+    ("stability", STR, "", "stable (Hessian of P in (T, mu) positive definite) or unstable"),
     ("s_hat", F64, "1", "s / T^(d-1)"),
     ("rho_hat", F64, "1", "rho / T^(d-1)"),
     ("P_hat", F64, "1", "P / T^d"),
@@ -58,7 +61,7 @@ COLUMNS = [
 
 #: columns whose values are physics: identical, bit for bit, for the same config and code
 PHYSICS_COLUMNS = ["model_id", "kind", "d", "branch", "T", "mu", "s", "rho", "epsilon", "P", "Omega",
-                   "chi2", "cs2", "s_hat", "rho_hat", "P_hat", "chi2_hat", "status", "method",
+                   "chi2", "cs2", "P_check", "trace_anomaly", "stability", "s_hat", "rho_hat", "P_hat", "chi2_hat", "status", "method",
                    "error_estimate", "residual", "point_key"]
 
 
