@@ -21,7 +21,7 @@ from ..settings import SolverSettings
 from .grid import grid_points
 
 #: keys of a model block that belong to the scan, not to the model kind
-SCAN_MODEL_KEYS = ("grid", "solver")
+SCAN_MODEL_KEYS = ("grid", "solver", "points_per_job")
 
 
 def schema_path() -> Path:
@@ -89,6 +89,7 @@ class ModelPlan:
     model: object
     settings: SolverSettings
     points: tuple
+    points_per_job: int
 
 
 @dataclass(frozen=True)
@@ -133,7 +134,7 @@ def validate_scan_config(doc, schema: dict | None = None) -> ScanConfig:
             pts = grid_points(doc["grid"], "grid")
         else:
             raise InputError(f"{key}.grid", None, "no grid: give a top-level 'grid' or one in the model block")
-        plans.append(ModelPlan(model, settings, tuple(pts)))
+        plans.append(ModelPlan(model, settings, tuple(pts), int(block.get("points_per_job", doc.get("points_per_job", 200)))))
     return ScanConfig(
         scan=doc["scan"],
         models=tuple(plans),

@@ -58,25 +58,36 @@ def make_plan(cfg: ScanConfig, results_dir="results", *, write: bool = True) -> 
     code = code_hash()
     chash = config_hash(cfg.canonical_json())
     index = index_store(root / "segments", quarantine=write)
-    models, table, missing = {}, [], []
+    models, table, missing, per_model = {}, [], [], []
     for mp in cfg.models:
         spec, solver = mp.model.spec(), mp.settings.canonical()
         models[mp.model.id] = {"spec": spec, "solver": solver}
         ctx = model_context(spec, solver, code)
+        start = len(missing)
         for T, mu in mp.points:
             k = point_key(ctx, T, mu)
             table.append([mp.model.id, T, mu, k])
             if k not in index.where:
                 missing.append([mp.model.id, T, mu, k])
-    size = max(cfg.points_per_job, math.ceil(len(missing) / cfg.max_jobs)) if missing else cfg.points_per_job
+        per_model.append((mp.points_per_job, missing[start:]))
+    # Chunks never mix models; a model's points are dealt round-robin over its chunks so that an
+    # expensive region (a first-order fold, low T) does not land in one job. Sizes grow uniformly
+    # if needed so that one plan has about max_jobs chunks at most.
+    n_jobs = sum(math.ceil(len(m) / ppj) for ppj, m in per_model if m)
+    grow = max(1.0, n_jobs / cfg.max_jobs)
     chunk_of = dict(index.where)
     new_chunks = []
-    for i in range(0, len(missing), size):
-        pts = missing[i:i + size]
-        cid = hashlib.sha256("\n".join(sorted(p[3] for p in pts)).encode()).hexdigest()[:16]
-        new_chunks.append((cid, pts))
-        for p in pts:
-            chunk_of[p[3]] = cid
+    size = 0
+    for ppj, pts_m in per_model:
+        step = max(1, math.ceil(ppj * grow))
+        size = max(size, step)
+        n_chunks = math.ceil(len(pts_m) / step)
+        for i in range(n_chunks):
+            pts = pts_m[i::n_chunks]  # dealt round-robin: costly regions spread over the chunks
+            cid = hashlib.sha256("\n".join(sorted(p[3] for p in pts)).encode()).hexdigest()[:16]
+            new_chunks.append((cid, pts))
+            for p in pts:
+                chunk_of[p[3]] = cid
     rows = [[*p, chunk_of[p[3]]] for p in table]
     plan_hash = hashlib.sha256(json.dumps(rows).encode()).hexdigest()[:16]
     table_file = root / "plan" / f"table-{plan_hash}.json"
@@ -94,5 +105,6 @@ def make_plan(cfg: ScanConfig, results_dir="results", *, write: bool = True) -> 
     return Plan(
         scan=cfg.scan, root=root, n_points=len(table), n_missing=len(missing),
         chunk_ids=tuple(c for c, _ in new_chunks), segment_ids=tuple(sorted({r[4] for r in rows})),
-        table_file=table_file, plan_hash=plan_hash, quarantined=tuple(index.quarantined), chunk_size=size,
+        table_file=table_file, plan_hash=plan_hash, quarantined=tuple(index.quarantined),
+        chunk_size=size or cfg.points_per_job,
     )
