@@ -30,6 +30,7 @@ COLUMNS = [
     ("chi2", F64, "E^(d-2)", "charge susceptibility d rho/d mu at fixed T"),
     ("cs2", F64, "1", "speed of sound squared, dP/d epsilon at fixed s/rho"),
     ("P_check", F64, "E^d", "pressure by a second independent route (per model kind)"),
+    ("P_mismatch", F64, "1", "|P - P_check| / |P|: disagreement of the two pressure routes"),
     ("trace_anomaly", F64, "1", "(epsilon - (d-1) P) / T^d"),
     ("stability", STR, "", "stable (Hessian of P in (T, mu) positive definite) or unstable"),
     ("s_hat", F64, "1", "s / T^(d-1)"),
