@@ -10,7 +10,6 @@ tests/test_emd_onecharge.py for the formulas).
 from __future__ import annotations
 
 import argparse
-import math
 import statistics
 import sys
 import time

@@ -16,12 +16,11 @@ from __future__ import annotations
 
 import math
 import time
-from dataclasses import dataclass
 
 import numpy as np
 
 from .bulk.charged_brane import ChargedBrane, HorizonData
-from .engine import ShootSettings, shoot
+from .engine import Counters, ShootSettings, shoot
 from .result import PointResult, Status
 from .settings import SolverSettings
 from .thermo import cs2_from_hessian, hessian_from_jacobians, local_stability
@@ -29,20 +28,11 @@ from .thermo import cs2_from_hessian, hessian_from_jacobians, local_stability
 _DENSITIES = ("s", "rho", "epsilon", "P")
 
 
-@dataclass
-class _Counter:
-    nfev: int = 0
-    nsteps: int = 0
-    shots: int = 0
-    residual: float = 0.0
-    frame: float = 0.0
-
-
 class _ShotFailed(RuntimeError):
     pass
 
 
-def _observe(brane: ChargedBrane, kappa_sq: float, Phi1: float, ss: ShootSettings, cnt: _Counter) -> dict:
+def _observe(brane: ChargedBrane, kappa_sq: float, Phi1: float, ss: ShootSettings, cnt: Counters) -> dict:
     shot = shoot(brane, HorizonData(0.0, Phi1), ss)
     cnt.nfev += shot.nfev
     cnt.nsteps += shot.nsteps
@@ -50,8 +40,7 @@ def _observe(brane: ChargedBrane, kappa_sq: float, Phi1: float, ss: ShootSetting
     if not shot.ok:
         raise _ShotFailed(shot.message)
     obs = brane.boundary_unsourced(shot.y_end, kappa_sq)
-    cnt.residual = max(cnt.residual, shot.residual)
-    cnt.frame = max(cnt.frame, obs["frame_mismatch"])
+    cnt.residual = max(cnt.residual, shot.residual, obs["frame_mismatch"])
     return obs
 
 
@@ -115,12 +104,12 @@ def solve_unsourced(brane: ChargedBrane, kappa_sq: float, T: float, mu: float, s
     f = float(brane.f.derivs(0.0)[0])
     Phi_max = math.sqrt(-2.0 * float(brane.V.derivs(0.0)[0]) / f)
     ss = settings.shoot_settings()
-    cnt = _Counter()
+    cnt = Counters()
     common = dict(model_id=model_id, kind=kind, d=d, method="shooting", T=T, mu=mu,
                   rtol=ss.rtol, atol=ss.atol)
     try:
         u, base, niter = _target(brane, kappa_sq, Phi_max, x, ss, cnt)
-        tight_cnt = _Counter()
+        tight_cnt = Counters()
         _, tight, _ = _target(brane, kappa_sq, Phi_max, x, ss.tighter(), tight_cnt)
         vals = _scaled(base, T, d)
         vals_tight = _scaled(tight, T, d)
@@ -136,14 +125,10 @@ def solve_unsourced(brane: ChargedBrane, kappa_sq: float, T: float, mu: float, s
     err = max(abs(vals[k] - vals_tight[k]) / max(abs(vals_tight[k]), 1e-300) for k in _DENSITIES)
     deriv_err = max((abs(a - r) / abs(r) for a, r in zip(H[:3], (P_TT, P_Tmu, P_mumu)) if r != 0.0), default=0.0)
     target_mismatch = abs(vals["mu"] - x * T) / max(x * T, T)
-    residual = max(cnt.residual, cnt.frame)
+    residual = cnt.residual
     s, rho = vals["s"], vals["rho"]
     cs2 = cs2_from_hessian(T, x * T, s, rho, P_TT, P_Tmu, P_mumu)
-    problems = []
-    if not err <= settings.accept_error:
-        problems.append(f"estimated error {err:.3g} > accept_error {settings.accept_error:g}")
-    if not residual <= settings.accept_error:
-        problems.append(f"field-equation residual {residual:.3g} > {settings.accept_error:g}")
+    problems = settings.problems(err, residual)
     if not target_mismatch <= 1e-2 * settings.accept_error:
         problems.append(f"target mismatch {target_mismatch:.3g} > accept_error / 100")
     status = Status.NOT_CONVERGED if problems else Status.OK

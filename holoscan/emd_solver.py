@@ -19,26 +19,14 @@ along it is a seed; converged roots closer than ``1e-7`` in ``q`` are one branch
 from __future__ import annotations
 
 import math
-import time
 from dataclasses import dataclass, field
 
 import numpy as np
 
 from .bulk.charged_brane import HorizonData
 from .bulk.scalar_brane import ScalarBrane
-from .engine import ShootSettings, shoot
+from .engine import Counters, ShootSettings
 from .engine.batch import dop853_batch
-from .result import PointResult, Status
-from .settings import SolverSettings
-from .thermo import cs2_from_hessian, hessian_from_jacobians
-
-
-@dataclass
-class Counters:
-    nfev: int = 0
-    nsteps: int = 0
-    shots: int = 0
-    residual: float = 0.0
 
 
 @dataclass(frozen=True)

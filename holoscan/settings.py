@@ -56,6 +56,16 @@ class SolverSettings:
             raise InputError(f"{key}.rtol", block["rtol"], "must be >= 1e-13 (double precision limit)")
         return cls(**{**asdict(out), **vals})
 
+    def problems(self, error: float, residual: float) -> list[str]:
+        """Why a solve is not ``ok`` (empty when it is): the error estimate and the field-equation
+        residual must both be at most ``accept_error``."""
+        out = []
+        if not error <= self.accept_error:
+            out.append(f"estimated error {error:.3g} > accept_error {self.accept_error:g}")
+        if not residual <= self.accept_error:
+            out.append(f"field-equation residual {residual:.3g} > {self.accept_error:g}")
+        return out
+
     def with_method(self, method: str) -> "SolverSettings":
         return SolverSettings(**{**asdict(self), "method": method})
 

@@ -7,11 +7,8 @@ Points solved in a run are counted from the per-point metadata (start_time) of t
 import copy
 import random
 import shutil
-from datetime import datetime, timezone
 
-import numpy as np
 import pyarrow.compute as pc
-import pytest
 
 from holoscan.scan.tables import PHYSICS_COLUMNS
 from workflow_helpers import REPO, run, run_and_kill, solved_since, table, unlock, workspace

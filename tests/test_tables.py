@@ -6,10 +6,8 @@ import math
 import pandas as pd
 import pyarrow as pa
 import pyarrow.parquet as pq
-import pytest
 
 import holoscan.scan.chunk as chunk_mod
-from holoscan.result import Status
 from holoscan.scan.assemble import assemble
 from holoscan.scan.chunk import run_chunk
 from holoscan.scan.config import validate_scan_config

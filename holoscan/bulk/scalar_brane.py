@@ -24,7 +24,6 @@ from __future__ import annotations
 
 import math
 
-import numpy as np
 
 from .charged_brane import ChargedBrane
 

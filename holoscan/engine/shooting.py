@@ -76,6 +76,17 @@ class ShootSettings:
         )
 
 
+@dataclass
+class Counters:
+    """Work done for one result: right-hand-side evaluations, steps, shots, and the largest
+    field-equation residual among the shots the result is made of."""
+
+    nfev: int = 0
+    nsteps: int = 0
+    shots: int = 0
+    residual: float = 0.0
+
+
 @dataclass(frozen=True)
 class Shot:
     """One integration: final state, counters and residual."""

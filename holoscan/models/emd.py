@@ -82,7 +82,6 @@ class EMDModel:
 
     def check(self, key: str = "model") -> None:
         V, f = self.couplings(key)
-        v0, v1, v2 = V.taylor0(3)[:3] if hasattr(V, "taylor0") else (None, None, None)
         V0, V1, V2 = (float(x) for x in V.derivs(0.0))
         f0 = float(f.derivs(0.0)[0])
         if not abs(V0 + 12.0) <= 1e-9:
@@ -206,11 +205,7 @@ def solve_family(model: EMDModel, sh: EMDShooter, T: float, mu: float, settings:
         P_TT, P_Tmu, P_mumu = P_TT * f2, P_Tmu * f2, P_mumu * f2
         cs2 = cs2_from_hessian(T, x * T, s, rho, P_TT, P_Tmu, P_mumu)
         err = math.nan if ot is None else float(np.max(np.abs(ot[[0, 2, 3]] - o[[0, 2, 3]]) / np.abs(ot[[0, 2, 3]]).clip(1e-300)))
-        problems = []
-        if not err <= settings.accept_error:
-            problems.append(f"estimated error {err:.3g} > accept_error {settings.accept_error:g}")
-        if not cnt.residual <= settings.accept_error:
-            problems.append(f"field-equation residual {cnt.residual:.3g} > {settings.accept_error:g}")
+        problems = settings.problems(err, cnt.residual)
         out.append(PointResult(
             **common, s=s, rho=sign * rho, epsilon=(d - 1) * P, P=P, chi2=P_mumu, cs2=cs2, branch=b,
             P_check=P, trace_anomaly=0.0, stability=local_stability(P_TT, P_Tmu, P_mumu),
@@ -317,11 +312,7 @@ def solve_sourced(model: EMDModel, sh: EMDShooter, T: float, mu: float, settings
         err = math.nan if ot is None else float(np.max(np.abs(_physical(ot, d, D) - X) / np.abs(_physical(ot, d, D)).clip(1e-300)))
         P_mismatch = abs(P1 - P2) / max(abs(P1), 1e-300)
         total = max(err, P_mismatch)
-        problems = []
-        if not total <= settings.accept_error:
-            problems.append(f"estimated error {total:.3g} > accept_error {settings.accept_error:g}")
-        if not cnt.residual <= settings.accept_error:
-            problems.append(f"field-equation residual {cnt.residual:.3g} > {settings.accept_error:g}")
+        problems = settings.problems(total, cnt.residual)
         out.append(PointResult(
             **common, s=s, rho=sign * rho, epsilon=eps, P=P, chi2=P_mumu, cs2=cs2, branch=b,
             P_check=P2 * L**d, trace_anomaly=(eps - 3 * P) / T**4, stability=local_stability(P_TT, P_Tmu, P_mumu),

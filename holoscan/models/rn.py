@@ -32,7 +32,6 @@ from dataclasses import dataclass
 from .. import validate as v
 from ..bulk.charged_brane import ChargedBrane, Constant
 from ..conformal import solve_unsourced
-from ..errors import InputError
 from ..result import PointResult, Status
 from ..settings import SolverSettings
 from ..thermo import cs2_from_hessian, local_stability
