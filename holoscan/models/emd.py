@@ -25,6 +25,7 @@ from __future__ import annotations
 import math
 import time
 from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
 
@@ -42,6 +43,12 @@ from ..settings import SolverSettings
 from ..thermo import cs2_from_hessian, hessian_from_jacobians, local_stability
 
 D_BOUNDARY = 4
+
+
+@lru_cache(maxsize=256)
+def _parsed(text: str, key: str) -> ParsedCoupling:
+    """Parse (and differentiate) a coupling once per process, not once per point."""
+    return ParsedCoupling(text, key)
 
 
 @dataclass(frozen=True)
@@ -78,7 +85,7 @@ class EMDModel:
 
     # -- parsed couplings and checks ------------------------------------------------------------------
     def couplings(self, key: str = "model"):
-        return ParsedCoupling(self.V, f"{key}.V"), ParsedCoupling(self.f, f"{key}.f")
+        return _parsed(self.V, f"{key}.V"), _parsed(self.f, f"{key}.f")
 
     def check(self, key: str = "model") -> None:
         V, f = self.couplings(key)
