@@ -46,6 +46,9 @@ class EMDShooter:
         self.brane, self.kappa_sq, self.sourced = brane, kappa_sq, sourced
         self.phi0_max, self.n_phi0, self.n_u, self.u_max = phi0_max, n_phi0, n_u, u_max
         self._grid = None
+        #: coarse scans only seed Newton: a loose tolerance and a shorter run suffice
+        self.coarse_settings = ShootSettings(rtol=1e-6)
+        self.coarse_brane = ScalarBrane(brane.d, brane.V, brane.f, brane.delta, A_end=min(brane.A_end, 10.0))
         self.cache: dict = {}  # model-level results shared by the points of a process (pressure reference)
 
     def phi0_nodes(self) -> np.ndarray:
@@ -112,11 +115,9 @@ class EMDShooter:
         if self._grid is None:
             phi0 = self.phi0_nodes()
             u = np.linspace(0.0, self.u_max, self.n_u)
-            ss = ShootSettings(rtol=1e-6)
-            coarse = ScalarBrane(self.brane.d, self.brane.V, self.brane.f, self.brane.delta,
-                                 A_end=min(self.brane.A_end, 10.0))  # seeds only: a shorter run suffices
             P, W = np.meshgrid(phi0, u, indexing="ij")
-            obs = self.observe_many(np.column_stack([P.ravel(), W.ravel()]), ss, brane=coarse)
+            obs = self.observe_many(np.column_stack([P.ravel(), W.ravel()]), self.coarse_settings,
+                                    brane=self.coarse_brane)
             self._grid = Grid(phi0, u, obs.reshape(len(phi0), len(u), 4))
         return self._grid
 
@@ -213,8 +214,7 @@ def family_curve(sh: EMDShooter, iterations: int = 6) -> np.ndarray:
     if "family" in sh.cache:
         return sh.cache["family"]
     g = sh.grid()
-    ss = ShootSettings(rtol=1e-6)
-    coarse = ScalarBrane(sh.brane.d, sh.brane.V, sh.brane.f, sh.brane.delta, A_end=min(sh.brane.A_end, 10.0))
+    ss, coarse = sh.coarse_settings, sh.coarse_brane
     exact, brackets = [], []
     for i, p in enumerate(g.phi0):
         js = g.obs[i, :, 1]

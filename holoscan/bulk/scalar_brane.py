@@ -54,12 +54,6 @@ class ScalarBrane(ChargedBrane):
             default_end = max(10.0, 18.0 / k)
         self.A_end = float(A_end) if A_end is not None else default_end
 
-    def end_point(self, hd) -> float:
-        return 1e6 * self.A_end / self.horizon_slope(hd)  # an upper bound; the event ends it
-
-    def end_event(self, r, y):
-        return y[0] - self.A_end
-
     def boundary_dimensionless(self, y_end, kappa_sq: float) -> dict:
         """``x = mu/T``, ``j``, ``s_hat = s/T^(d-1)``, ``rho_hat = rho/T^(d-1)`` (see module docstring)."""
         d, D = self.d, self.delta

@@ -35,7 +35,6 @@ from ..bulk.scalar_brane import ScalarBrane
 from ..conformal import solve_unsourced
 from ..emd_pressure import ZeroDensityPressure, lobatto, path_integral
 from ..emd_solver import Counters, EMDShooter, find_branches
-from ..engine import ShootSettings
 from ..errors import InputError
 from ..expr import ParsedCoupling
 from ..result import PointResult, Status
@@ -135,11 +134,6 @@ class EMDModel:
 _SHOOTERS: dict = {}
 
 
-def _fd_settings(ss: ShootSettings) -> ShootSettings:
-    """Shots for finite differences: 10 times tighter, since differencing divides their error by the step."""
-    return ShootSettings(rtol=max(ss.rtol / 10, 2.3e-14), horizon_offset=ss.horizon_offset)
-
-
 def _shooter(model: EMDModel, V, f) -> EMDShooter:
     """One shooter (with its coarse scan of horizon data) per model and process."""
     key = tuple(sorted(model.spec().items()))
@@ -149,16 +143,19 @@ def _shooter(model: EMDModel, V, f) -> EMDShooter:
     return _SHOOTERS[key]
 
 
-def _gradients(sh: EMDShooter, q, step: float, ss, cnt):
-    """Gradients of the observables ``(x, j, s_hat, rho_hat)`` in ``(phi0, u)``: central differences
-    with steps h and 2h, Richardson-extrapolated (error O(h^4)); returns (G (4, 2), error estimate)."""
+def _gradients(sh: EMDShooter, q, steps, ss, cnt, transform=None):
+    """Gradients in ``(phi0, u)`` of the observables ``(x, j, s_hat, rho_hat)``, or of
+    ``transform(observables)``: central differences with steps h and 2h (``steps`` gives h per
+    direction), Richardson-extrapolated (error O(h^4)). Returns (G, elementwise error estimate)."""
     cols, errs = [], []
     for k in range(2):
         h = np.zeros(2)
-        h[k] = step * (max(1.0, abs(q[k])) if k == 0 else 1.0)
+        h[k] = steps[k]
         o = sh.observe_many([q + h, q - h, q + 2 * h, q - 2 * h], ss, cnt)
         if not np.all(np.isfinite(o)):
             raise ArithmeticError("a derivative shot failed")
+        if transform is not None:
+            o = [transform(r) for r in o]
         diffs = [(o[0] - o[1]) / (2 * h[k]), (o[2] - o[3]) / (4 * h[k])]
         cols.append((4 * diffs[0] - diffs[1]) / 3)
         errs.append(np.abs(diffs[0] - diffs[1]) / 3)
@@ -168,7 +165,7 @@ def _gradients(sh: EMDShooter, q, step: float, ss, cnt):
 def _family_derivatives(sh: EMDShooter, q, step: float, ss, cnt):
     """d/dtau of (x, j, s_hat, rho_hat) along the j = 0 family at q (tangent (dj/du, -dj/dphi0)),
     exact given the gradients, and a relative error estimate."""
-    G, E = _gradients(sh, q, step, ss, cnt)
+    G, E = _gradients(sh, q, (step * max(1.0, abs(q[0])), step), ss, cnt)
     t = np.array([G[1, 1], -G[1, 0]])
     t /= np.linalg.norm(t)
     d = G @ t
@@ -191,12 +188,12 @@ def solve_family(model: EMDModel, sh: EMDShooter, T: float, mu: float, settings:
                             message=f"no brane of this family has mu/T = {x:.6g}", nfev=cnt.nfev,
                             nsteps=cnt.nsteps, niter=cnt.shots, wall_time=time.perf_counter() - t0)]
     out = []
-    tight = ShootSettings(rtol=max(ss.rtol / 100, 2.3e-14), horizon_offset=ss.horizon_offset)
+    tight = ss.tighter()
     for b, (q, fnorm, niter, o) in enumerate(roots):
         try:
             if sh.observe(q, ss, cnt, record=True) is None:
                 raise ArithmeticError("the solution shot failed on repetition")
-            deriv, deriv_err = _family_derivatives(sh, q, settings.fd_step, _fd_settings(ss), cnt)
+            deriv, deriv_err = _family_derivatives(sh, q, settings.fd_step, ss.tighter(10), cnt)
         except ArithmeticError as exc:
             out.append(PointResult(**common, branch=b, status=Status.FAILED, message=str(exc)))
             continue
@@ -277,7 +274,7 @@ def solve_sourced(model: EMDModel, sh: EMDShooter, T: float, mu: float, settings
                                     f"(horizon data scanned up to phi0 = {sh.phi0_max:g})",
                             nfev=cnt.nfev, nsteps=cnt.nsteps, niter=cnt.shots, wall_time=time.perf_counter() - t0)]
     P0 = _pressure_reference(sh, ss)
-    tight = ShootSettings(rtol=max(ss.rtol / 100, 2.3e-14), horizon_offset=ss.horizon_offset)
+    tight = ss.tighter()
     out = []
     for b, (q, fnorm, niter, o) in enumerate(roots):
         try:
@@ -285,18 +282,9 @@ def solve_sourced(model: EMDModel, sh: EMDShooter, T: float, mu: float, settings
             if o is None:
                 raise ArithmeticError("the solution shot failed on repetition")
             X = _physical(o, d, D)
-            cols = []
-            for k in range(2):
-                e = np.zeros(2)
-                # relative step in phi0 (T ~ phi0^(-1/(4-Delta)) varies on the scale of phi0 itself)
-                e[k] = settings.fd_step * (abs(q[0]) if k == 0 else 1.0)
-                o4 = sh.observe_many([q + e, q - e, q + 2 * e, q - 2 * e], _fd_settings(ss), cnt)
-                if not np.all(np.isfinite(o4)):
-                    raise ArithmeticError("a derivative shot failed")
-                X4 = [_physical(r, d, D) for r in o4]
-                diffs = [(X4[0] - X4[1]) / (2 * e[k]), (X4[2] - X4[3]) / (4 * e[k])]
-                cols.append(((4 * diffs[0] - diffs[1]) / 3, np.max(np.abs(diffs[0] - diffs[1]) / 3)))
-            J = np.column_stack([c[0] for c in cols])
+            # relative step in phi0 (T ~ phi0^(-1/(4-Delta)) varies on the scale of phi0 itself)
+            J, J_err = _gradients(sh, q, (settings.fd_step * abs(q[0]), settings.fd_step), ss.tighter(10), cnt,
+                                  transform=lambda r: _physical(r, d, D))
             P_TT, P_Tmu, P_mumu, maxwell = hessian_from_jacobians(J[:2], J[2:])
             if isinstance(P0, Exception):
                 raise ArithmeticError(str(P0))
@@ -330,7 +318,7 @@ def solve_sourced(model: EMDModel, sh: EMDShooter, T: float, mu: float, settings
             extra={"horizon_phi0": float(q[0]),
                    "horizon_u": float(q[1]) * sign, "target_mismatch": fnorm, "P_route2": P2 * L**d,
                    "P_mismatch": P_mismatch, "trace_anomaly": (eps - 3 * P) / T**4,
-                   "deriv_error": max(c[1] for c in cols), "maxwell_mismatch": maxwell,
+                   "deriv_error": float(np.max(J_err)), "maxwell_mismatch": maxwell,
                    "P_reference_power": P0.k_ref, "shots": cnt.shots},
         ))
     return out
