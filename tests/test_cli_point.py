@@ -1,4 +1,8 @@
-"""The `holoscan point` command: JSON output and clear errors for bad input (no tracebacks)."""
+"""The `holoscan point` command: JSON output and clear errors for bad input (no tracebacks).
+
+Expectations are the project's documented command-line contract (README "Command line"; common
+practice, no source); the physics values themselves are checked in test_rn_thermo.py.
+"""
 import json
 import math
 

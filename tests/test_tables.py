@@ -1,5 +1,9 @@
 """Tables in-process (no Snakemake): schema with units in Arrow field metadata, the file-level
-`holoscan` key, pandas round trip, failures as rows, per-model summary, audit."""
+`holoscan` key, pandas round trip, failures as rows, per-model summary, audit.
+
+Expectations are the project's documented table and audit contract (README "The table", "Auditing a
+number"; common practice, no source), except where a check names its reference.
+"""
 import json
 import math
 
