@@ -5,11 +5,12 @@ from __future__ import annotations
 
 from ..errors import InputError
 from .. import validate as v
+from .charged_scalar import ChargedScalarModel
 from .emd import EMDModel
 from .rn import RNModel
 
 #: kind name -> model class
-KINDS = {"rn": RNModel, "emd": EMDModel}
+KINDS = {"rn": RNModel, "emd": EMDModel, "charged-scalar": ChargedScalarModel}
 
 
 def model_from_block(block, key: str = "model"):
@@ -34,4 +35,4 @@ def models_from_list(blocks, key: str = "models") -> dict:
     return out
 
 
-__all__ = ["KINDS", "EMDModel", "RNModel", "model_from_block", "models_from_list"]
+__all__ = ["KINDS", "ChargedScalarModel", "EMDModel", "RNModel", "model_from_block", "models_from_list"]

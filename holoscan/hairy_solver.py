@@ -1,0 +1,360 @@
+"""Onset of condensation and the condensed (hairy) brane family of a charged-scalar model.
+
+Everything is in units of the temperature (the model is conformal: the unsourced scalar leaves
+``x = mu/T`` as the only parameter; ``mu >= 0`` here, the sign symmetry is applied by the caller).
+Shots come from :class:`holoscan.bulk.hairy_brane.HairyBrane` with horizon data ``(psi0, E)``.
+
+Onset. On the normal brane (``psi0 = 0``: the scalar is linearised on Reissner-Nordstrom, or on
+Schwarzschild with a probe gauge field) the horizon-regular static scalar has a source coefficient
+``src(x)``. A zero of ``src`` is a normalisable static zero mode, the onset of the instability; the
+lowest such ``x`` is ``x_c = mu/T_c`` (found by a batched scan of ``x`` from 0.05 to 400 and Brent's
+method on the first sign change).
+
+Condensed family. Parametrised by ``s = psi0`` (the horizon value of the scalar, in units r_h = 1),
+each member solves ``src(s, E) = 0`` for ``E``. The family is built once per model, tolerance and
+process, panel by panel: Chebyshev-Lobatto nodes in ``s`` (the first panel starts at the onset
+``s = 0``), all nodes of a panel solved together by a batched Newton iteration; a panel whose
+interpolants of ``x(s)`` and ``rho_hat(s)`` are not resolved to ``1e-11`` is halved. The panels give
+guesses for targeted solves and the pressure by the first law::
+
+    P(T=1, x) = P_normal(x_c) + int_{x_c}^{x} rho_hat dx'     (= int rho_hat(s) x'(s) ds)
+
+A targeted solve at ``x`` is a 2D Newton iteration in ``(psi0, E)`` on ``(src, x(psi0, E) - x)``,
+started from the family's interpolant.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+from numpy.polynomial import Chebyshev
+
+from .bulk.hairy_brane import HairyBrane, Shots
+
+#: observables carried along (attribute names of Shots)
+OBS = ("x", "rho_hat", "s_hat", "p_hat", "O_hat")
+#: Chebyshev-Lobatto degree of a family panel
+DEGREE = 14
+#: a panel is accepted when the trailing Chebyshev coefficients of x(s), rho_hat(s) are below this
+PANEL_TOL = 1e-11
+
+
+class SolveError(ArithmeticError):
+    """A numerical step failed; the message says which (caught and reported by the model)."""
+
+
+@dataclass
+class Work:
+    """Right-hand-side evaluations, steps and shots spent on one result."""
+
+    nfev: int = 0
+    nsteps: int = 0
+    shots: int = 0
+
+    def add(self, sh: Shots, n: int) -> None:
+        self.nfev += sh.nfev
+        self.nsteps += sh.nsteps
+        self.shots += n
+
+
+def normal_E(brane: HairyBrane, x):
+    """Horizon field E of the normal brane with mu/T = x (r_h = 1): from ``x = 4 pi a / g'(1)``,
+    ``a = E/(d-2)``, ``g'(1) = d - kappa^2 E^2 / ((d-1) e^2)``."""
+    d, k2, e2 = brane.d, brane.kappa_sq, brane.e_sq
+    x = np.asarray(x, float)
+    if k2 == 0.0:
+        return x * d * (d - 2) / (4.0 * math.pi)
+    c = k2 / ((d - 1) * e2)
+    # x (d - c E^2)(d-2) = 4 pi E  ->  c x (d-2) E^2 + 4 pi E - d (d-2) x = 0
+    A = c * x * (d - 2)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        E = 2.0 * d * (d - 2) * x / (4.0 * math.pi + np.sqrt(16.0 * math.pi**2 + 4.0 * A * d * (d - 2) * x))
+    return E
+
+
+@dataclass
+class Onset:
+    x_c: float                 # mu/T at the onset (inf when there is none)
+    E_c: float
+    shots: Shots | None        # boundary data of the normal brane at the onset (None if none)
+    error: float               # relative change of x_c under 100x tighter tolerances
+    work: Work
+
+
+def find_onset(brane: HairyBrane, rtol: float, offset: float, x_max: float = 400.0) -> Onset:
+    """Lowest x with a normalisable static zero mode of the scalar on the normal brane."""
+    from scipy.optimize import brentq
+
+    work = Work()
+    xs = np.geomspace(0.05, x_max, 96)
+
+    def src(x, rt):
+        sh = brane.shoot([0.0], [float(normal_E(brane, x))], rt, offset)
+        work.add(sh, 1)
+        if not sh.ok[0]:
+            raise SolveError(f"onset shot failed at mu/T = {x:.6g}")
+        return float(sh.src[0])
+
+    sh = brane.shoot(np.zeros_like(xs), normal_E(brane, xs), rtol, offset)
+    work.add(sh, xs.size)
+    v = np.where(sh.ok, sh.src, np.nan)
+    change = np.flatnonzero(np.isfinite(v[1:]) & np.isfinite(v[:-1]) & (np.sign(v[1:]) != np.sign(v[:-1])))
+    if change.size == 0:
+        return Onset(math.inf, math.nan, None, 0.0, work)
+    i = int(change[0])
+    roots = []
+    for rt in (rtol, max(rtol / 100.0, 2.3e-14)):
+        roots.append(brentq(lambda x: src(x, rt), xs[i], xs[i + 1], xtol=1e-15, rtol=1e-15, maxiter=200))
+    x_c = roots[0]
+    E_c = float(normal_E(brane, x_c))
+    final = brane.shoot([0.0], [E_c], rtol, offset)
+    work.add(final, 1)
+    return Onset(x_c, E_c, final, abs(roots[0] - roots[1]) / roots[1], work)
+
+
+@dataclass
+class Panel:
+    a: float
+    b: float
+    s: np.ndarray
+    E: np.ndarray
+    obs: dict                   # name -> values at the nodes
+    poly: dict = field(default_factory=dict)  # name -> Chebyshev interpolant (also "E")
+    P_start: float = 0.0        # first-law pressure (T = 1) at s = a
+    tail: float = 0.0           # size of the trailing coefficients (resolution)
+
+
+def _cheb_nodes(a: float, b: float, n: int = DEGREE) -> np.ndarray:
+    return 0.5 * (a + b) - 0.5 * (b - a) * np.cos(np.pi * np.arange(n + 1) / n)
+
+
+def _fit(s, vals, a, b) -> Chebyshev:
+    return Chebyshev.fit(s, vals, deg=len(s) - 1, domain=[a, b])
+
+
+def _tail(p: Chebyshev) -> float:
+    c = np.abs(p.coef)
+    return float(max(c[-1], c[-2], c[-3]) / max(np.max(c), 1e-300))
+
+
+class Family:
+    """The condensed family of one brane at one tolerance and horizon offset (built lazily)."""
+
+    def __init__(self, brane: HairyBrane, onset: Onset, rtol: float, offset: float):
+        self.brane, self.onset, self.rtol, self.offset = brane, onset, rtol, offset
+        self.panels: list[Panel] = []
+        self.work = Work()
+        self.E_scale = max(abs(onset.E_c), 1e-3)
+        self.failed: str | None = None
+
+    # -- node solves --------------------------------------------------------------------------------
+    def solve_E(self, s: np.ndarray, E: np.ndarray, max_iter: int = 40):
+        """Batched Newton iteration for E(s) with src(s, E) = 0; returns (E, shots) or raises."""
+        br, n = self.brane, s.size
+        E = E.copy()
+        hE = 1e-7 * self.E_scale
+        for _ in range(max_iter):
+            sh = br.shoot(np.concatenate([s, s]), np.concatenate([E, E + hE]), self.rtol, self.offset)
+            self.work.add(sh, 2 * n)
+            if not np.all(sh.ok):
+                raise SolveError("a family shot failed")
+            f0, f1 = sh.src[:n], sh.src[n:]
+            dE = -f0 * hE / (f1 - f0)
+            dE = np.clip(dE, -0.25 * self.E_scale, 0.25 * self.E_scale)
+            E = E + dE
+            if np.all(np.abs(dE) <= max(1e-13, self.rtol) * self.E_scale):
+                break
+        else:
+            raise SolveError("the family's Newton iteration did not converge")
+        fin = br.shoot(s, E, self.rtol, self.offset)
+        self.work.add(fin, n)
+        if not np.all(fin.ok):
+            raise SolveError("a family shot failed")
+        return E, fin
+
+    def _make_panel(self, a: float, b: float, E_guess) -> Panel:
+        s = _cheb_nodes(a, b)
+        E = np.asarray(E_guess(s), float)
+        start = 0
+        if a == 0.0:  # the onset itself: psi0 = 0 is the normal brane at x_c
+            start = 1
+        E_sol, sh = self.solve_E(s[start:], E[start:])
+        E[start:] = E_sol
+        obs = {k: np.empty(s.size) for k in OBS}
+        for k in OBS:
+            getattr_ = getattr(sh, k)
+            obs[k][start:] = getattr_
+        if start:
+            on = self.onset.shots
+            for k in OBS:
+                obs[k][0] = 0.0 if k == "O_hat" else float(getattr(on, k)[0])
+            E[0] = self.onset.E_c
+        p = Panel(a, b, s, E, obs)
+        for k in OBS:
+            p.poly[k] = _fit(s, obs[k], a, b)
+        p.poly["E"] = _fit(s, E, a, b)
+        p.tail = max(_tail(p.poly["x"]), _tail(p.poly["rho_hat"]))
+        return p
+
+    def _pilot_width(self) -> float:
+        """Width of the first panel: x(s) - x_c ~ c s^2; aim at a 5% step in x."""
+        s1 = 1e-2
+        E1, sh = self.solve_E(np.array([s1]), np.array([self.onset.E_c]))
+        c = (float(sh.x[0]) - self.onset.x_c) / s1**2
+        self._pilot = (s1, float(E1[0]))
+        if not c > 0:
+            raise SolveError("the condensed family does not start towards larger mu/T")
+        return math.sqrt(0.05 * self.onset.x_c / c)
+
+    def extend(self) -> None:
+        """Add one panel (halving its width until it is resolved)."""
+        if not self.panels:
+            w = self._pilot_width()
+            s1, E1 = self._pilot
+            Ec = self.onset.E_c
+            guess = lambda s: Ec + (E1 - Ec) * (s / s1) ** 2  # noqa: E731
+            a = 0.0
+        else:
+            last = self.panels[-1]
+            a, w = last.b, (last.b - last.a) * (2.0 if last.tail < 1e-3 * PANEL_TOL else 1.0)
+            lo = Chebyshev.fit(last.s[-6:], last.E[-6:], deg=3)
+            guess = lo
+        for _ in range(12):
+            try:
+                p = self._make_panel(a, a + w, guess)
+            except SolveError:
+                w *= 0.5
+                continue
+            if p.tail <= PANEL_TOL:
+                break
+            w *= 0.5
+        else:
+            raise SolveError("could not resolve the condensed family (panel width collapsed)")
+        if self.panels:
+            prev = self.panels[-1]
+            p.P_start = prev.P_start + self._integral(prev, prev.b)
+        else:
+            p.P_start = float(self.onset.shots.p_hat[0])
+        self.panels.append(p)
+
+    @staticmethod
+    def _integral(p: Panel, s: float) -> float:
+        """int_{p.a}^{s} rho_hat(s') x'(s') ds' on panel p."""
+        f = (p.poly["rho_hat"] * p.poly["x"].deriv()).integ(lbnd=p.a)
+        return float(f(s))
+
+    def ensure(self, x: float, max_panels: int = 200) -> None:
+        while not self.panels or self.panels[-1].obs["x"][-1] < x:
+            if len(self.panels) >= max_panels:
+                raise SolveError(f"mu/T = {x:.6g} lies beyond the family built so far "
+                                 f"(mu/T <= {self.panels[-1].obs['x'][-1]:.6g})")
+            prev_x = self.panels[-1].obs["x"][-1] if self.panels else self.onset.x_c
+            self.extend()
+            if not self.panels[-1].obs["x"][-1] > prev_x:
+                raise SolveError("mu/T stopped growing along the condensed family")
+
+    def locate(self, x: float):
+        """(s, E) of the member with mu/T = x, from the interpolants (a guess for Newton)."""
+        from scipy.optimize import brentq
+
+        self.ensure(x)
+        for p in self.panels:
+            if p.obs["x"][0] <= x <= p.obs["x"][-1]:
+                s = brentq(lambda t: p.poly["x"](t) - x, p.a, p.b, xtol=1e-15, rtol=1e-15)
+                return s, float(p.poly["E"](s))
+        raise SolveError(f"mu/T = {x:.6g} not found on the condensed family (x is not monotone in psi0)")
+
+    def pressure(self, s: float) -> tuple[float, float]:
+        """First-law pressure P/T^d (T = 1) at family parameter s, and its error estimate (the
+        panels' resolution times the size of the integral)."""
+        for p in self.panels:
+            if p.a <= s <= p.b:
+                val = p.P_start + self._integral(p, s)
+                tail = max(q.tail for q in self.panels if q.a <= s)
+                return val, tail * abs(val - float(self.onset.shots.p_hat[0])) + 1e-16 * abs(val)
+        raise SolveError(f"psi0 = {s:.6g} lies outside the condensed family")
+
+
+@dataclass
+class Member:
+    """A solved member of the condensed family at a target x (units T = 1)."""
+
+    s: float
+    E: float
+    vals: dict                   # OBS -> value
+    src_ratio: float             # |src/vev| (zero-source mismatch)
+    residual: float              # radial-charge drift (backreacted) or 0
+    niter: int
+
+
+def solve_member(brane: HairyBrane, x: float, guess, rtol: float, offset: float, work: Work,
+                 max_iter: int = 30) -> Member:
+    """2D Newton on (psi0, E) for src = 0 and mu/T = x (forward-difference Jacobian)."""
+    u = np.array(guess, float)
+    scale = np.array([max(abs(u[0]), 1e-8), max(abs(u[1]), 1e-3)])
+    h = 1e-7 * scale
+    last = None
+    for it in range(1, max_iter + 1):
+        P = np.array([u[0], u[0] + h[0], u[0]])
+        Q = np.array([u[1], u[1], u[1] + h[1]])
+        sh = brane.shoot(P, Q, rtol, offset)
+        work.add(sh, 3)
+        if not np.all(sh.ok):
+            raise SolveError("a shot of the targeted solve failed")
+        F = np.array([sh.src, (sh.x - x) / x])
+        J = np.column_stack([(F[:, 1] - F[:, 0]) / h[0], (F[:, 2] - F[:, 0]) / h[1]])
+        try:
+            du = -np.linalg.solve(J, F[:, 0])
+        except np.linalg.LinAlgError:
+            raise SolveError("singular Jacobian in the targeted solve") from None
+        lim = 0.2 * scale
+        du = np.clip(du, -lim, lim)
+        last = sh
+        if np.all(np.abs(du) <= max(1e-13, rtol) * scale):
+            break
+        u = u + du
+    else:
+        raise SolveError("the targeted Newton iteration did not converge")
+    vals = {k: float(getattr(last, k)[0]) for k in OBS}
+    return Member(float(u[0]), float(u[1]), vals, abs(float(last.src[0]) / float(last.vev[0])),
+                  float(last.residual[0]), it)
+
+
+def family_gradients(brane: HairyBrane, m: Member, step: float, rtol: float, offset: float, work: Work):
+    """Derivatives along the family (tangent (dsrc/dE, -dsrc/dpsi0), normalised) of the observables
+    OBS at member m: central differences with steps h and 2h in psi0 and E, Richardson-extrapolated.
+    Returns (dict name -> derivative, relative error estimate)."""
+    hs = np.array([step * m.s, step * max(abs(m.E), 1e-3)])
+    P, Q = [], []
+    for k in range(2):
+        for f in (1, -1, 2, -2):
+            du = np.zeros(2)
+            du[k] = f * hs[k]
+            P.append(m.s + du[0])
+            Q.append(m.E + du[1])
+    sh = brane.shoot(np.array(P), np.array(Q), rtol, offset)
+    work.add(sh, 8)
+    if not np.all(sh.ok):
+        raise SolveError("a derivative shot failed")
+    names = ("src",) + OBS
+    grads, errs = {}, {}
+    for nm in names:
+        v = getattr(sh, nm)
+        g, e = [], []
+        for k in range(2):
+            o = v[4 * k: 4 * k + 4]
+            d1 = (o[0] - o[1]) / (2 * hs[k])
+            d2 = (o[2] - o[3]) / (4 * hs[k])
+            g.append((4 * d1 - d2) / 3)
+            e.append(abs(d1 - d2) / 3)
+        grads[nm], errs[nm] = np.array(g), np.array(e)
+    t = np.array([grads["src"][1], -grads["src"][0]])
+    t /= np.linalg.norm(t)
+    out, rel = {}, 0.0
+    for nm in OBS:
+        out[nm] = float(grads[nm] @ t)
+        err = float(errs[nm] @ np.abs(t))
+        if nm in ("x", "rho_hat", "s_hat"):
+            rel = max(rel, err / max(abs(out[nm]), 1e-300))
+    return out, rel

@@ -1,0 +1,328 @@
+r"""Model kind ``charged-scalar``: the holographic superconductor, a charged scalar that condenses
+spontaneously on a charged black brane in AdS_{d+1} (d = 3 or 4).
+
+Action (L = 1, mostly-plus signature, ``D = nabla - i q A``)::
+
+    probe: false   S = \int sqrt(-g) [ (R + d(d-1)) / (2 kappa^2) - F^2/(4 e^2) - |D psi|^2 - m^2 |psi|^2 ]
+    probe: true    S = \int sqrt(-g) [ - F^2/4 - |D psi|^2 - m^2 |psi|^2 ]  on planar Schwarzschild-AdS_{d+1}
+
+``probe: true`` is the normalisation of Hartnoll, Herzog & Horowitz 2008, Phys. Rev. Lett. 101,
+031601 (``e^2 = 1``; ``kappa_sq`` and ``e_sq`` are then not parameters and are rejected). With
+``probe: false`` and ``psi = 0`` the brane is exactly the ``rn`` model with the same d, kappa_sq,
+e_sq (its closed form is used for the normal branch). The probe limit of the backreacted model is
+``q e -> infinity`` with ``q e psi`` and ``q e A`` fixed (Hartnoll, Herzog & Horowitz 2008, JHEP 12,
+015); in it ``T_c / sqrt(q e^2 rho)`` tends to the probe model's ``T_c / sqrt(q rho)``, which does not
+depend on q.
+
+Keys: ``id``, ``kind``, ``d`` (3 or 4), ``m_sq`` (``-d^2/4 < m_sq <= 0``), ``q`` (> 0), ``delta``
+(``Delta_pm = d/2 pm sqrt(d^2/4 + m_sq)``; ``Delta_-`` only where both quantisations are admissible,
+``m_sq < -d^2/4 + 1``; with backreaction ``Delta_-`` also needs ``3 Delta_- > Delta_+``, else the
+scalar's cube would mix with its source and need a multi-trace boundary condition), ``probe``
+(default true), and with ``probe: false`` ``kappa_sq``, ``e_sq`` (> 0).
+
+Conventions and units. Any energy unit E (the scalar is unsourced, so the model is conformal: results
+depend on mu/T only, observables of dimension n scale as T^n). ``mu = A_t(boundary) - A_t(horizon)``.
+``rho = dP/dmu`` is the charge density, with the sign of mu (``mu -> -mu``: rho odd, the rest even);
+near the boundary ``A_t = mu - e^2 rho / ((d-2) r^(d-2)) + ...``, so in d = 3 with e^2 = 1 it is the
+coefficient of -1/r. Condensate: ``<O> = sqrt(2) psi_(Delta)`` with ``psi_(Delta)`` the coefficient of
+``r^(-Delta)`` in psi (the HHH PRL normalisation, used for every d), dimension E^Delta; ``<O> >= 0``.
+
+Probe densities. With ``probe: true`` every table density (s, rho, epsilon, P, chi2) is the charge
+sector's own contribution (order 1, i.e. O(kappa^0)); the neutral brane's own O(1/kappa^2) share
+(``P = r_h^d / (2 kappa^2)``) is excluded. The neutral share dominates the specific heat, so local
+stability in the probe limit is decided by ``chi2 > 0`` alone. The probe P is the renormalised
+on-shell matter action, ``P = mu rho / 2 - q^2 \int r^(d-1) psi^2 phi^2 / g dr`` (no scalar boundary
+term survives for an unsourced scalar in either quantisation), and ``s = (d P - mu rho)/T``.
+
+Backreacted densities: ``s = 2 pi r_h^(d-1) / kappa^2`` (horizon area), ``rho`` from the electric
+flux, ``P = (T s + mu rho)/d`` (Euler relation of a conformal theory), ``epsilon = (d-1) P``.
+
+Second route, ``P_check``: the first law integrated from the onset along the condensed family at
+fixed T, ``P = P_normal(T, |mu| = x_c T) + \int rho dmu`` (:mod:`holoscan.hairy_solver`); for the
+normal branch the Euler relation. ``trace_anomaly`` is 0 (conformal; epsilon is set to (d-1) P).
+
+Branches returned by :meth:`ChargedScalarModel.solve`: 0 the normal brane (closed form, always),
+1 the condensed nodeless brane when ``|mu|/T > x_c`` (shooting; see :mod:`holoscan.hairy_solver`).
+"""
+from __future__ import annotations
+
+import math
+import time
+from dataclasses import dataclass
+
+import numpy as np
+
+from .. import validate as v
+from ..bulk.hairy_brane import HairyBrane
+from ..errors import InputError
+from ..hairy_solver import Family, SolveError, Work, family_gradients, find_onset, solve_member
+from ..result import PointResult, Status
+from ..settings import SolverSettings
+from ..thermo import cs2_from_hessian, hessian_from_jacobians, local_stability
+from .rn import RNModel
+
+ONSET_METHOD = "zero mode, shooting"
+
+
+def _roots(d: int, m_sq: float) -> tuple[float, float]:
+    nu = math.sqrt(d * d / 4.0 + m_sq)
+    return d / 2.0 - nu, d / 2.0 + nu
+
+
+@dataclass(frozen=True)
+class ChargedScalarModel:
+    """Holographic superconductor; see the module docstring for conventions and units."""
+
+    id: str
+    d: int
+    m_sq: float
+    q: float
+    delta: float
+    probe: bool = True
+    kappa_sq: float | None = None
+    e_sq: float | None = None
+
+    kind = "charged-scalar"
+    methods = ("shooting",)
+    default_method = "shooting"
+    KEYS = ("id", "kind", "d", "m_sq", "q", "delta", "probe", "kappa_sq", "e_sq")
+
+    # -- construction -------------------------------------------------------------------------------
+    @classmethod
+    def from_block(cls, block: dict, key: str = "model") -> "ChargedScalarModel":
+        v.mapping(block, key)
+        v.only_keys(block, set(cls.KEYS), key)
+        id_ = v.name(v.required(block, "id", key), f"{key}.id")
+        d = v.integer(v.required(block, "d", key), f"{key}.d")
+        if d not in (3, 4):
+            raise InputError(f"{key}.d", block["d"], "must be 3 or 4 (AdS4 or AdS5)")
+        m_sq = v.number(v.required(block, "m_sq", key), f"{key}.m_sq")
+        bf = -d * d / 4.0
+        if m_sq < bf:
+            raise InputError(f"{key}.m_sq", block["m_sq"], f"below the Breitenlohner-Freedman bound -d^2/4 = {bf:g}")
+        if d * d / 4.0 + m_sq <= 1e-12:
+            raise InputError(f"{key}.m_sq", block["m_sq"], f"at the Breitenlohner-Freedman bound -d^2/4 = {bf:g} "
+                             "the two falloffs coincide (logarithmic branch); not supported, need m_sq > -d^2/4")
+        if m_sq > 0:
+            raise InputError(f"{key}.m_sq", block["m_sq"], "must be <= 0 (a relevant or marginal operator)")
+        q = v.number(v.required(block, "q", key), f"{key}.q", positive=True)
+        probe = block.get("probe", True)
+        if not isinstance(probe, bool):
+            raise InputError(f"{key}.probe", probe, "must be true or false")
+        dm, dp = _roots(d, m_sq)
+        window = m_sq < bf + 1.0
+        delta_in = v.number(v.required(block, "delta", key), f"{key}.delta")
+        allowed = f"Delta_+ = {dp:.12g}" + (f" or Delta_- = {dm:.12g}" if window else "")
+        if abs(delta_in - dp) <= 1e-9:
+            delta = dp
+        elif abs(delta_in - dm) <= 1e-9:
+            if not window:
+                raise InputError(f"{key}.delta", block["delta"],
+                                 f"Delta_- = {dm:.12g} is admissible only for -d^2/4 < m_sq < -d^2/4 + 1 "
+                                 f"(here m_sq = {m_sq:g}); allowed: {allowed}")
+            delta = dm
+        else:
+            raise InputError(f"{key}.delta", block["delta"],
+                             f"is not a root of Delta (Delta - d) = m_sq (to 1e-9); allowed: {allowed}")
+        kappa_sq = e_sq = None
+        if probe:
+            for k in ("kappa_sq", "e_sq"):
+                if k in block:
+                    raise InputError(f"{key}.{k}", block[k], "not a parameter with probe: true (the metric is the "
+                                     "fixed neutral brane and e^2 = 1); set probe: false for backreaction")
+        else:
+            kappa_sq = v.number(v.required(block, "kappa_sq", key), f"{key}.kappa_sq", positive=True)
+            e_sq = v.number(v.required(block, "e_sq", key), f"{key}.e_sq", positive=True)
+            if delta == dm and 3.0 * dm <= dp:
+                raise InputError(f"{key}.delta", block["delta"],
+                                 f"with backreaction Delta_- needs 3 Delta_- > Delta_+ (here {3 * dm:.6g} <= {dp:.6g}): "
+                                 "the scalar's cube then mixes with its source (multi-trace boundary condition), "
+                                 f"not supported; allowed: Delta_+ = {dp:.12g}")
+        return cls(id=id_, d=d, m_sq=m_sq, q=q, delta=delta, probe=probe, kappa_sq=kappa_sq, e_sq=e_sq)
+
+    def spec(self) -> dict:
+        """Canonical parameter dict (sorted keys) identifying the physics of this model."""
+        out = {"d": self.d, "delta": self.delta, "id": self.id, "kind": self.kind, "m_sq": self.m_sq,
+               "probe": self.probe, "q": self.q}
+        if not self.probe:
+            out.update(kappa_sq=self.kappa_sq, e_sq=self.e_sq)
+        return dict(sorted(out.items()))
+
+    def brane(self) -> HairyBrane:
+        if self.probe:
+            return HairyBrane(self.d, self.m_sq, self.delta, self.q)
+        return HairyBrane(self.d, self.m_sq, self.delta, self.q, self.kappa_sq, self.e_sq)
+
+    def normal_model(self) -> RNModel | None:
+        """The ``rn`` model of the normal branch (None in the probe limit)."""
+        return None if self.probe else RNModel(self.id, self.d, self.kappa_sq, self.e_sq)
+
+    # -- per-process cache --------------------------------------------------------------------------
+    def _state(self, settings: SolverSettings) -> dict:
+        key = (tuple((k, val) for k, val in self.spec().items() if k != "id"), settings.rtol, settings.horizon_offset)
+        st = _CACHE.get(key)
+        if st is None:
+            brane = self.brane()
+            st = {"brane": brane}
+            try:
+                st["onset"] = find_onset(brane, settings.rtol, settings.horizon_offset)
+            except (SolveError, ValueError, ArithmeticError) as exc:
+                st["onset"] = SolveError(f"onset search failed: {exc}")
+            if not isinstance(st["onset"], Exception) and math.isfinite(st["onset"].x_c):
+                st["family"] = Family(brane, st["onset"], settings.rtol, settings.horizon_offset)
+            _CACHE[key] = st
+        return st
+
+    # -- normal branch ------------------------------------------------------------------------------
+    def _normal(self, T: float, mu: float) -> dict:
+        """Closed form of the normal brane: (s, rho, P, P_TT, P_Tmu, P_mumu)."""
+        if not self.probe:
+            r = self.normal_model().closed_form(T, mu)
+            d, k2, e2, g2 = self.d, self.kappa_sq, self.e_sq, self.normal_model().gamma_sq
+            rh = r.extra["r_h"]
+            den = 2 * d * rh - 4 * math.pi * T
+            r_T, r_mu = 4 * math.pi * rh / den, 2 * (d - 2) * mu / (g2 * den)
+            P_TT = 2 * math.pi * (d - 1) * rh ** (d - 2) * r_T / k2
+            P_Tmu = 2 * math.pi * (d - 1) * rh ** (d - 2) * r_mu / k2
+            return dict(s=r.s, rho=r.rho, P=r.P, P_TT=P_TT, P_Tmu=P_Tmu, P_mumu=r.chi2)
+        # probe: A_t = mu (1 - (r_h/r)^(d-2)) on Schwarzschild-AdS, r_h = 4 pi T / d
+        d = self.d
+        c = 4 * math.pi / d
+        rh = c * T
+        P = 0.5 * (d - 2) * mu * mu * rh ** (d - 2)
+        return dict(
+            s=0.5 * (d - 2) ** 2 * mu * mu * rh ** (d - 3) * c,
+            rho=(d - 2) * mu * rh ** (d - 2), P=P,
+            P_TT=0.5 * (d - 2) ** 2 * (d - 3) * mu * mu * rh ** (d - 4) * c * c,
+            P_Tmu=(d - 2) ** 2 * mu * rh ** (d - 3) * c,
+            P_mumu=(d - 2) * rh ** (d - 2),
+        )
+
+    def _normal_rho(self, T: float, mu: float) -> float:
+        """Charge density of the normal brane (valid down to T = 0)."""
+        d = self.d
+        if self.probe:
+            return (d - 2) * mu * (4 * math.pi * T / d) ** (d - 2)
+        rh = self.normal_model().horizon_radius(T, mu)
+        return (d - 2) * mu * rh ** (d - 2) / self.e_sq
+
+    def _stability(self, P_TT, P_Tmu, P_mumu) -> str:
+        if self.probe:  # the neutral brane's O(1/kappa^2) specific heat dominates P_TT
+            return local_stability(1.0, 0.0, P_mumu)
+        return local_stability(P_TT, P_Tmu, P_mumu)
+
+    def normal_branch(self, T: float, mu: float, onset_extra: dict, onset_note: str) -> PointResult:
+        t0 = time.perf_counter()
+        d = self.d
+        n = self._normal(T, mu)
+        P = n["P"]
+        return PointResult(
+            model_id=self.id, kind=self.kind, d=d, method="closed-form", T=T, mu=mu, s=n["s"], rho=n["rho"],
+            epsilon=(d - 1) * P, P=P, chi2=n["P_mumu"],
+            cs2=cs2_from_hessian(T, mu, n["s"], n["rho"], n["P_TT"], n["P_Tmu"], n["P_mumu"]),
+            P_check=(T * n["s"] + mu * n["rho"]) / d, trace_anomaly=0.0, branch=0,
+            stability=self._stability(n["P_TT"], n["P_Tmu"], n["P_mumu"]),
+            status=Status.OK, message="closed form (normal brane)" + onset_note, rtol=0.0, atol=0.0,
+            residual=0.0, error_estimate=0.0, wall_time=time.perf_counter() - t0,
+            extra={"phase": "normal", "condensate": 0.0, **onset_extra},
+        )
+
+    # -- onset ----------------------------------------------------------------------------------------
+    def onset(self, mu: float, settings: SolverSettings = SolverSettings()) -> dict:
+        """Onset of condensation at chemical potential mu: the highest T with a normalisable static zero
+        mode of the scalar on the normal brane, ``T_c = |mu| / x_c``. Keys: T_c, mu, rho (charge density
+        of the normal brane at (T_c, mu)), mu_over_T (x_c), error_estimate (relative change of x_c under
+        100x tighter tolerances), status ("ok", "not converged", "failed"), message, method."""
+        mu = v.number(mu, "mu")
+        st = self._state(settings)
+        on = st["onset"]
+        out = {"mu": mu, "method": ONSET_METHOD}
+        if isinstance(on, Exception):
+            return {**out, "T_c": math.nan, "rho": math.nan, "mu_over_T": math.nan, "error_estimate": math.nan,
+                    "status": Status.FAILED.value, "message": str(on)}
+        if not math.isfinite(on.x_c):
+            rho = self._normal_rho(0.0, mu)
+            return {**out, "T_c": 0.0, "rho": rho, "mu_over_T": math.inf, "error_estimate": 0.0,
+                    "status": Status.OK.value,
+                    "message": "no static zero mode up to mu/T = 400: the normal brane does not condense"}
+        T_c = abs(mu) / on.x_c
+        rho = self._normal_rho(T_c, mu)
+        ok = on.error <= settings.accept_error
+        return {**out, "T_c": T_c, "rho": rho, "mu_over_T": on.x_c, "error_estimate": on.error,
+                "status": (Status.OK if ok else Status.NOT_CONVERGED).value,
+                "message": (f"zero mode at mu/T = {on.x_c:.12g} ({on.work.shots} shots)" if ok else
+                            f"estimated error {on.error:.3g} > accept_error {settings.accept_error:g}")}
+
+    # -- solve ----------------------------------------------------------------------------------------
+    def solve(self, T: float, mu: float, settings: SolverSettings = SolverSettings()) -> list[PointResult]:
+        """Branch 0: the normal brane (always). Branch 1: the condensed brane when |mu|/T > x_c."""
+        st = self._state(settings)
+        on = st["onset"]
+        x = abs(mu) / T
+        if isinstance(on, Exception):
+            extra = {"T_c": math.nan, "mu_over_T_c": math.nan}
+            note = f"; onset unknown ({on}), condensed branch not attempted"
+            return [self.normal_branch(T, mu, extra, note)]
+        extra = {"T_c": abs(mu) / on.x_c if math.isfinite(on.x_c) else 0.0, "mu_over_T_c": on.x_c}
+        out = [self.normal_branch(T, mu, extra, "")]
+        if x > on.x_c:
+            out.append(self._condensed(st, T, mu, settings, extra))
+        return out
+
+    def _condensed(self, st: dict, T: float, mu: float, settings: SolverSettings, onset_extra: dict) -> PointResult:
+        t0 = time.perf_counter()
+        d, D = self.d, self.delta
+        brane, fam = st["brane"], st["family"]
+        x = abs(mu) / T
+        sign = -1.0 if mu < 0 else 1.0
+        ss = settings.shoot_settings()
+        work = Work()
+        common = dict(model_id=self.id, kind=self.kind, d=d, method="shooting", T=T, mu=mu, branch=1,
+                      rtol=ss.rtol, atol=ss.atol)
+        try:
+            guess = fam.locate(x)
+            m = solve_member(brane, x, guess, ss.rtol, ss.horizon_offset, work)
+            tight_work = Work()
+            mt = solve_member(brane, x, (m.s, m.E), ss.tighter().rtol, ss.horizon_offset, tight_work)
+            deriv, deriv_err = family_gradients(brane, m, settings.fd_step, ss.tighter(10).rtol, ss.horizon_offset, work)
+            P_fam, P_fam_err = fam.pressure(m.s)
+        except (SolveError, ValueError, np.linalg.LinAlgError) as exc:
+            return PointResult(**common, status=Status.FAILED, message=str(exc), nfev=work.nfev, nsteps=work.nsteps,
+                               niter=work.shots, wall_time=time.perf_counter() - t0,
+                               extra={"phase": "condensed", **onset_extra})
+        o = m.vals
+        sh_, rh_, ph_ = o["s_hat"], o["rho_hat"], o["p_hat"]
+        # Hessian in units T = 1: columns (family tangent, scaling direction)
+        Jt = np.array([[0.0, 1.0], [deriv["x"], o["x"]]])
+        Jd = np.array([[deriv["s_hat"], (d - 1) * sh_], [deriv["rho_hat"], (d - 1) * rh_]])
+        P_TT, P_Tmu, P_mumu, maxwell = hessian_from_jacobians(Jt, Jd)
+        f2 = T ** (d - 2)
+        P_TT, P_Tmu, P_mumu = P_TT * f2, sign * P_Tmu * f2, P_mumu * f2
+        s, rho, P = sh_ * T ** (d - 1), sign * rh_ * T ** (d - 1), ph_ * T**d
+        P_check = P_fam * T**d
+        err = max(abs(mt.vals[k] - o[k]) / max(abs(mt.vals[k]), 1e-300) for k in ("rho_hat", "s_hat", "p_hat", "O_hat"))
+        P_mismatch = abs(P - P_check) / abs(P)
+        error = max(err, P_mismatch)
+        target = abs(o["x"] - x) / x
+        residual = max(m.residual, m.src_ratio)
+        problems = settings.problems(error, residual)
+        if not target <= 1e-2 * settings.accept_error:
+            problems.append(f"target mismatch {target:.3g} > accept_error / 100")
+        return PointResult(
+            **common, s=s, rho=rho, epsilon=(d - 1) * P, P=P, chi2=P_mumu,
+            cs2=cs2_from_hessian(T, mu, s, rho, P_TT, P_Tmu, P_mumu), P_check=P_check, trace_anomaly=0.0,
+            stability=self._stability(P_TT, P_Tmu, P_mumu),
+            status=Status.NOT_CONVERGED if problems else Status.OK,
+            message="; ".join(problems) or f"converged: {m.niter} Newton steps, {work.shots} shots",
+            nfev=work.nfev + tight_work.nfev, nsteps=work.nsteps + tight_work.nsteps, niter=m.niter,
+            residual=residual, error_estimate=error, wall_time=time.perf_counter() - t0,
+            extra={"phase": "condensed", "condensate": o["O_hat"] * T**D, **onset_extra,
+                   "horizon_psi0": m.s, "horizon_E": m.E, "source_over_vev": m.src_ratio,
+                   "radial_charge_drift": m.residual, "P_mismatch": P_mismatch, "P_check_error": P_fam_err * T**d,
+                   "deriv_error": deriv_err, "maxwell_mismatch": float(maxwell), "target_mismatch": target,
+                   "shots": work.shots + tight_work.shots},
+        )
+
+
+#: per-process cache: (physics spec without id, rtol, horizon_offset) -> onset, family, brane
+_CACHE: dict = {}
