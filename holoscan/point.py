@@ -3,6 +3,7 @@ from __future__ import annotations
 
 from . import validate as v
 from .errors import InputError
+from .phases.dominance import classify
 from .result import PointResult
 from .settings import SolverSettings
 
@@ -25,9 +26,10 @@ def solve_point(model, T, mu, settings: SolverSettings | None = None) -> list[Po
     """Solve ``model`` at temperature ``T`` and chemical potential ``mu``.
 
     Returns one :class:`~holoscan.result.PointResult` per branch found (a one-element list for a
-    model with a unique brane). Numerical trouble is reported in each result's ``status`` and
+    model with a unique brane), each with its phase label and flag (stable, metastable, unstable;
+    :mod:`holoscan.phases.dominance`). Numerical trouble is reported in each result's ``status`` and
     ``message``; only invalid input raises :class:`~holoscan.errors.InputError`, before any work.
     """
     T, mu = check_target(T, mu)
     settings = resolve_method(model, settings or SolverSettings())
-    return model.solve(T, mu, settings)
+    return classify(model.solve(T, mu, settings))

@@ -35,6 +35,8 @@ class PointResult:
     ``P_check`` is the pressure by a second, independent route (see each model kind), and
     ``trace_anomaly = (epsilon - (d-1) P) / T^d``. ``stability`` is ``stable`` when the Hessian of P
     in (T, mu) is positive definite (positive specific heat and chi2 > 0), else ``unstable``.
+    ``phase``, ``phase_flag`` (stable | metastable | unstable | unknown) and ``dominant`` compare the
+    branches found at the same (T, mu); see :mod:`holoscan.phases.dominance`.
     Observables of a failed solve are NaN and ``status`` says why.
     """
 
@@ -54,6 +56,9 @@ class PointResult:
     trace_anomaly: float = math.nan
     branch: int = 0
     stability: str = ""
+    phase: str = ""
+    phase_flag: str = ""
+    dominant: bool = False
     status: Status = Status.OK
     message: str = ""
     rtol: float = math.nan

@@ -9,7 +9,7 @@ import math
 
 import pyarrow as pa
 
-SCHEMA_VERSION = "1.1"
+SCHEMA_VERSION = "1.2"
 META_KEY = b"holoscan"
 
 F64, I64, STR = pa.float64(), pa.int64(), pa.string()
@@ -33,6 +33,9 @@ COLUMNS = [
     ("P_mismatch", F64, "1", "|P - P_check| / |P|: disagreement of the two pressure routes"),
     ("trace_anomaly", F64, "1", "(epsilon - (d-1) P) / T^d"),
     ("stability", STR, "", "stable (Hessian of P in (T, mu) positive definite) or unstable"),
+    ("phase", STR, "", "phase label of this branch (normal, condensed, unique, high-entropy, intermediate, low-entropy)"),
+    ("phase_flag", STR, "", "stable (dominant: lowest Omega among locally stable branches) | metastable | unstable | unknown"),
+    ("dominant", pa.bool_(), "", "true for the dominant branch at this (T, mu)"),
     ("s_hat", F64, "1", "s / T^(d-1)"),
     ("rho_hat", F64, "1", "rho / T^(d-1)"),
     ("P_hat", F64, "1", "P / T^d"),
@@ -62,14 +65,20 @@ COLUMNS = [
 
 #: columns whose values are physics: identical, bit for bit, for the same config and code
 PHYSICS_COLUMNS = ["model_id", "kind", "d", "branch", "T", "mu", "s", "rho", "epsilon", "P", "Omega",
-                   "chi2", "cs2", "P_check", "trace_anomaly", "stability", "s_hat", "rho_hat", "P_hat", "chi2_hat", "status", "method",
+                   "chi2", "cs2", "P_check", "trace_anomaly", "stability", "phase", "phase_flag", "dominant", "s_hat", "rho_hat", "P_hat", "chi2_hat", "status", "method",
                    "error_estimate", "residual", "point_key"]
 
 
-def schema(file_meta: dict | None = None) -> pa.Schema:
-    fields = [pa.field(n, t, metadata={"unit": u, "description": m}) for n, t, u, m in COLUMNS]
+def make_schema(columns, file_meta: dict | None = None) -> pa.Schema:
+    """Arrow schema of ``columns`` ((name, type, unit, meaning) tuples) with the file metadata key."""
+    fields = [pa.field(n, t, metadata={"unit": u, "description": m}) for n, t, u, m in columns]
     meta = {META_KEY: json.dumps(file_meta, sort_keys=True, default=str).encode()} if file_meta else None
     return pa.schema(fields, metadata=meta)
+
+
+def schema(file_meta: dict | None = None) -> pa.Schema:
+    """Schema of the points table."""
+    return make_schema(COLUMNS, file_meta)
 
 
 def _cell(v, t):
@@ -81,13 +90,23 @@ def _cell(v, t):
         return float(v)
     if t == I64:
         return int(v) if v is not None else 0
+    if t == pa.bool_():
+        return bool(v)
+    if pa.types.is_list(t):
+        return [_cell(x, t.value_type) for x in (v or [])]
     return "" if v is None else str(v)
 
 
-def rows_to_table(rows: list[dict], file_meta: dict | None = None) -> pa.Table:
-    sch = schema(file_meta)
-    arrays = [pa.array([_cell(r.get(n), t) for r in rows], type=t) for n, t, _, _ in COLUMNS]
+def table_from_rows(rows: list[dict], columns, file_meta: dict | None = None) -> pa.Table:
+    """A table of ``columns`` from dict rows (missing keys become null, or 0 / "" / false)."""
+    sch = make_schema(columns, file_meta)
+    arrays = [pa.array([_cell(r.get(n), t) for r in rows], type=t) for n, t, _, _ in columns]
     return pa.Table.from_arrays(arrays, schema=sch)  # (from_pydict would import pandas)
+
+
+def rows_to_table(rows: list[dict], file_meta: dict | None = None) -> pa.Table:
+    """The points table from dict rows."""
+    return table_from_rows(rows, COLUMNS, file_meta)
 
 
 def file_metadata(table: pa.Table) -> dict:
