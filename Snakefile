@@ -6,6 +6,7 @@ configfile: "config/config.yaml"
 include: "workflow/rules/common.smk"
 include: "workflow/rules/solve.smk"
 include: "workflow/rules/assemble.smk"
+include: "workflow/rules/phases.smk"
 
 
 rule all:

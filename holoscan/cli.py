@@ -9,7 +9,7 @@ import sys
 from . import __version__
 from .config import load_models, pick_model, read_yaml
 from .errors import InputError
-from .point import check_target, solve_point
+from .point import check_target, resolve_method, solve_point
 from .settings import METHODS
 
 
@@ -72,6 +72,55 @@ def cmd_assemble(args) -> int:
     return 0
 
 
+def cmd_solve_lines(args) -> int:
+    from .scan.chunk import StaleManifest
+    from .scan.lines_job import run_lines
+
+    try:
+        n, c = run_lines(args.manifest, args.out, args.critical, log_file=args.log or "")
+    except StaleManifest as exc:
+        print(f"holoscan: error: {exc}", file=sys.stderr)
+        return 3
+    print(f"wrote {n} line points to {args.out} and {c} critical point(s) to {args.critical}")
+    return 0
+
+
+def cmd_phase_tables(args) -> int:
+    from pathlib import Path
+
+    from .scan.phase_tables import build_phase_tables, dump_json, phase_summary_text
+    from .scan.store import atomic_write_text
+
+    doc = json.loads(Path(args.plan).read_text())
+    root = Path(args.plan).parent.parent
+    keys = [k for _, k in doc.get("lines", [])]
+    summary = build_phase_tables(args.points, [root / "lines" / f"{k}.parquet" for k in keys],
+                                 [root / "lines" / f"{k}-critical.parquet" for k in keys],
+                                 args.out_phases, args.out_transitions, args.out_critical)
+    text = phase_summary_text(summary)
+    if args.summary_text:
+        atomic_write_text(Path(args.summary_text), text)
+    if args.summary:
+        atomic_write_text(Path(args.summary), dump_json(summary))
+    print(text, end="")
+    return 0
+
+
+def cmd_onset(args) -> int:
+    v_mu = check_target(1.0, args.mu, key_mu="--mu")[1]
+    doc = read_yaml(args.config)
+    models, settings = load_models(doc)
+    model = pick_model(models, args.model)
+    if not hasattr(model, "onset"):
+        raise InputError("--model", args.model, f"kind '{model.kind}' has no scalar condensation onset; "
+                         "use a model of kind charged-scalar")
+    if v_mu == 0.0:
+        raise InputError("--mu", args.mu, "the onset temperature at mu = 0 is 0 (conformal model): give mu != 0")
+    settings = resolve_method(model, settings, "solver.method")
+    print(json.dumps(_json_ready(model.onset(v_mu, settings)), indent=2, allow_nan=False))
+    return 0
+
+
 def cmd_audit(args) -> int:
     from .scan.audit import audit_report
 
@@ -101,6 +150,12 @@ def build_parser() -> argparse.ArgumentParser:
     au.add_argument("--recompute", action="store_true", help="solve the point again now and compare")
     au.set_defaults(func=cmd_audit)
 
+    on = sub.add_parser("onset", help="onset of scalar condensation (charged-scalar models): T_c at one mu, as JSON")
+    on.add_argument("--config", required=True, help="YAML file with a 'models:' list")
+    on.add_argument("--model", required=True, help="model id in the config (kind charged-scalar)")
+    on.add_argument("--mu", required=True, type=float, help="chemical potential (non-zero)")
+    on.set_defaults(func=cmd_onset)
+
     ck = sub.add_parser("check", help="validate a scan config and count its points")
     ck.add_argument("--config", required=True)
     ck.set_defaults(func=cmd_check)
@@ -117,6 +172,22 @@ def build_parser() -> argparse.ArgumentParser:
     asm.add_argument("--summary", required=True)
     asm.add_argument("--summary-text", default=None)
     asm.set_defaults(func=cmd_assemble)
+    sl = sub.add_parser("solve-lines", help="(workflow) locate one model's transition lines from a lines manifest")
+    sl.add_argument("manifest")
+    sl.add_argument("--out", required=True)
+    sl.add_argument("--critical", required=True)
+    sl.add_argument("--log", default="")
+    sl.set_defaults(func=cmd_solve_lines)
+
+    pt2 = sub.add_parser("phase-tables", help="(workflow) phases, transitions and critical-point tables of a plan")
+    pt2.add_argument("plan")
+    pt2.add_argument("--points", required=True)
+    pt2.add_argument("--out-phases", required=True)
+    pt2.add_argument("--out-transitions", required=True)
+    pt2.add_argument("--out-critical", required=True)
+    pt2.add_argument("--summary", default=None)
+    pt2.add_argument("--summary-text", default=None)
+    pt2.set_defaults(func=cmd_phase_tables)
     return p
 
 

@@ -5,6 +5,9 @@ so a chunk's name fixes its content: the same missing points always give the sam
 a chunk's manifest never changes once written. Chunk size is ``points_per_job``, raised when needed
 so that one plan never has more than ``max_jobs`` chunks.
 
+Each model with transition lines to locate (:func:`holoscan.phases.lines.has_lines`) gets one
+lines job, ``plan/lines-<key>.json``, keyed by the model context (spec, solver, code) and its grid.
+
 The plan also writes ``plan/table-<hash>.json``: every point of the current config with its key and
 the chunk that holds (or will hold) it. Assembly reads only that file and the segments it names.
 """
@@ -17,6 +20,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from .. import __version__
+from ..phases.lines import has_lines
 from .config import ScanConfig
 from .identity import code_hash, config_hash, model_context, point_key
 from .store import atomic_write_text, index_store
@@ -34,6 +38,13 @@ class Plan:
     plan_hash: str
     quarantined: tuple
     chunk_size: int
+    lines_ids: tuple = ()  # one lines job per model with lines to locate
+
+    def lines_manifest(self, key: str) -> Path:
+        return self.root / "plan" / f"lines-{key}.json"
+
+    def lines_outputs(self, key: str) -> tuple[Path, Path]:
+        return self.root / "lines" / f"{key}.parquet", self.root / "lines" / f"{key}-critical.parquet"
 
     def manifest(self, chunk: str) -> Path:
         return self.root / "plan" / f"{chunk}.json"
@@ -58,11 +69,16 @@ def make_plan(cfg: ScanConfig, results_dir="results", *, write: bool = True) -> 
     code = code_hash()
     chash = config_hash(cfg.canonical_json())
     index = index_store(root / "segments", quarantine=write)
-    models, table, missing, per_model = {}, [], [], []
+    models, table, missing, per_model, lines = {}, [], [], [], []
     for mp in cfg.models:
         spec, solver = mp.model.spec(), mp.settings.canonical()
         models[mp.model.id] = {"spec": spec, "solver": solver}
         ctx = model_context(spec, solver, code)
+        if has_lines(mp.model):
+            grid = sorted(map(list, mp.points))
+            lkey = hashlib.sha256(json.dumps([ctx, grid]).encode()).hexdigest()[:16]
+            lines.append({"scan": cfg.scan, "key": lkey, "code_hash": code, "model_id": mp.model.id, "spec": spec,
+                          "solver": solver, "points": grid})
         start = len(missing)
         for T, mu in mp.points:
             k = point_key(ctx, T, mu)
@@ -89,7 +105,7 @@ def make_plan(cfg: ScanConfig, results_dir="results", *, write: bool = True) -> 
             for p in pts:
                 chunk_of[p[3]] = cid
     rows = [[*p, chunk_of[p[3]]] for p in table]
-    plan_hash = hashlib.sha256(json.dumps(rows).encode()).hexdigest()[:16]
+    plan_hash = hashlib.sha256(json.dumps([rows, [m["key"] for m in lines]]).encode()).hexdigest()[:16]
     table_file = root / "plan" / f"table-{plan_hash}.json"
     if write:
         for cid, pts in new_chunks:
@@ -97,14 +113,17 @@ def make_plan(cfg: ScanConfig, results_dir="results", *, write: bool = True) -> 
             manifest = {"scan": cfg.scan, "chunk": cid, "code_hash": code, "config_hash": chash,
                         "package_version": __version__, "models": {m: models[m] for m in used}, "points": pts}
             _write_once(root / "plan" / f"{cid}.json", json.dumps(manifest, sort_keys=True))
+        for m in lines:
+            _write_once(root / "plan" / f"lines-{m['key']}.json", json.dumps(m, sort_keys=True))
         doc = {"scan": cfg.scan, "code_hash": code, "config_hash": chash, "config": cfg.raw,
                "package_version": __version__, "models": models,
                "model_order": [mp.model.id for mp in cfg.models],
-               "columns": ["model_id", "T", "mu", "point_key", "chunk"], "rows": rows}
+               "columns": ["model_id", "T", "mu", "point_key", "chunk"], "rows": rows,
+               "lines": [[m["model_id"], m["key"]] for m in lines]}
         _write_once(table_file, json.dumps(doc, sort_keys=True, default=str))
     return Plan(
         scan=cfg.scan, root=root, n_points=len(table), n_missing=len(missing),
         chunk_ids=tuple(c for c, _ in new_chunks), segment_ids=tuple(sorted({r[4] for r in rows})),
         table_file=table_file, plan_hash=plan_hash, quarantined=tuple(index.quarantined),
-        chunk_size=size or cfg.points_per_job,
+        chunk_size=size or cfg.points_per_job, lines_ids=tuple(m["key"] for m in lines),
     )

@@ -17,6 +17,7 @@ rule assemble:
 
 
 onsuccess:
-    p = Path(f"results/{PLAN.scan}/summary.txt")
-    if p.exists():
-        print(p.read_text(), end="")
+    for name in ("summary.txt", "phase_summary.txt"):
+        p = Path(f"results/{PLAN.scan}/{name}")
+        if p.exists():
+            print(p.read_text(), end="")

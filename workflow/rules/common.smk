@@ -33,8 +33,15 @@ def get_final_targets():
     # intermediate file for a consumer that is otherwise up to date, and a deleted or quarantined
     # segment comes back under the same chunk id with an unchanged plan.
     new = [str(PLAN.segment(c)) for c in PLAN.chunk_ids]
-    return [f"results/{PLAN.scan}/points.parquet", f"results/{PLAN.scan}/summary.json", *new]
+    root = f"results/{PLAN.scan}"
+    tables = [f"{root}/{n}" for n in ("points.parquet", "summary.json", "phases.parquet", "transitions.parquet",
+                                      "critical_points.parquet")]
+    return [*tables, *new, *get_lines(None)]
 
 
 def get_segments(wildcards):
     return [f"results/{wildcards.scan}/segments/{c}.parquet" for c in PLAN.segment_ids]
+
+
+def get_lines(wildcards):
+    return [str(p) for k in PLAN.lines_ids for p in PLAN.lines_outputs(k)]
