@@ -206,6 +206,14 @@ class ChargedScalarModel:
         rh = self.normal_model().horizon_radius(T, mu)
         return (d - 2) * mu * rh ** (d - 2) / self.e_sq
 
+    def _cs2(self, T, mu, s, rho, P_TT, P_Tmu, P_mumu) -> float:
+        """Speed of sound from the Hessian; for a probe at mu = 0 (empty charge sector, degenerate
+        Hessian) the conformal value 1/(d-1) of the whole fluid."""
+        det = P_TT * P_mumu - P_Tmu**2
+        if self.probe and (det == 0.0 or T * s + mu * rho == 0.0):
+            return 1.0 / (self.d - 1)
+        return cs2_from_hessian(T, mu, s, rho, P_TT, P_Tmu, P_mumu)
+
     def _stability(self, P_TT, P_Tmu, P_mumu) -> str:
         if self.probe:  # the neutral brane's O(1/kappa^2) specific heat dominates P_TT
             return local_stability(1.0, 0.0, P_mumu)
@@ -219,7 +227,7 @@ class ChargedScalarModel:
         return PointResult(
             model_id=self.id, kind=self.kind, d=d, method="closed-form", T=T, mu=mu, s=n["s"], rho=n["rho"],
             epsilon=(d - 1) * P, P=P, chi2=n["P_mumu"],
-            cs2=cs2_from_hessian(T, mu, n["s"], n["rho"], n["P_TT"], n["P_Tmu"], n["P_mumu"]),
+            cs2=self._cs2(T, mu, n["s"], n["rho"], n["P_TT"], n["P_Tmu"], n["P_mumu"]),
             P_check=(T * n["s"] + mu * n["rho"]) / d, trace_anomaly=0.0, branch=0,
             stability=self._stability(n["P_TT"], n["P_Tmu"], n["P_mumu"]),
             status=Status.OK, message="closed form (normal brane)" + onset_note, rtol=0.0, atol=0.0,
@@ -310,7 +318,7 @@ class ChargedScalarModel:
             problems.append(f"target mismatch {target:.3g} > accept_error / 100")
         return PointResult(
             **common, s=s, rho=rho, epsilon=(d - 1) * P, P=P, chi2=P_mumu,
-            cs2=cs2_from_hessian(T, mu, s, rho, P_TT, P_Tmu, P_mumu), P_check=P_check, trace_anomaly=0.0,
+            cs2=self._cs2(T, mu, s, rho, P_TT, P_Tmu, P_mumu), P_check=P_check, trace_anomaly=0.0,
             stability=self._stability(P_TT, P_Tmu, P_mumu),
             status=Status.NOT_CONVERGED if problems else Status.OK,
             message="; ".join(problems) or f"converged: {m.niter} Newton steps, {work.shots} shots",
