@@ -23,3 +23,39 @@ def test_one_charge_branches_through_the_workflow(tmp_path):
             s, rho, _ = closed(1.0, mu, b)
             assert r.s == pytest.approx(s, rel=1e-6) and r.rho == pytest.approx(rho, rel=1e-6)
     assert "mu/T" in df.iloc[4]["message"]
+
+
+def test_phase_tables_through_the_workflow(tmp_path):
+    """phases, transitions and critical-point tables of a one-charge scan: the instability line at
+    mu/T = pi/sqrt 2 (DeWolfe, Gubser & Rosen 2011), the stable branch dominant at every point with a
+    solution, and the provenance metadata shared with the points table."""
+    import math
+
+    import pyarrow.parquet as pq
+
+    from holoscan.scan.tables import file_metadata
+
+    cfg = {"scan": "q", "models": [dict(ONE_CHARGE), {"id": "r", "kind": "rn", "d": 4, "kappa_sq": 0.5, "e_sq": 2.0}],
+           "grid": {"T": [1.0, 2.0], "mu_over_T": [0.5, 2.5]}, "points_per_job": 2}
+    ws = workspace(tmp_path, cfg)
+    run(ws)
+    root = ws / "results" / "q"
+    points, phases = pq.read_table(root / "points.parquet"), pq.read_table(root / "phases.parquet")
+    trans, crit = pq.read_table(root / "transitions.parquet"), pq.read_table(root / "critical_points.parquet")
+    assert file_metadata(phases)["code_hash"] == file_metadata(points)["code_hash"] == file_metadata(trans)["code_hash"]
+    ph = phases.to_pandas()
+    assert len(ph) == 8  # one row per grid point and model
+    q = ph[ph.model_id == "1q"].sort_values(["T", "mu"])
+    assert list(q["status"]) == ["ok", "no solution", "ok", "no solution"]
+    assert list(q["dominant_phase"]) == ["high-entropy", "", "high-entropy", ""]
+    pts = points.to_pandas()
+    for _, row in q[q.status == "ok"].iterrows():
+        br = pts[(pts.model_id == "1q") & (pts["T"] == row["T"]) & (pts.mu == row.mu)]
+        assert list(row.branch_flag) == ["stable" if st == "stable" else "unstable" for st in br.stability]
+        assert row.Omega == min(br.Omega[br.stability == "stable"])
+    assert set(ph[ph.model_id == "r"]["dominant_phase"]) == {"unique"}
+    tr = trans.to_pandas()
+    assert set(tr.model_id) == {"1q"} and set(tr.type) == {"instability"}
+    assert sorted(tr["T"]) == [1.0, 2.0]
+    assert all(abs(tr.mu_over_T - math.pi / math.sqrt(2)) < 1e-6)
+    assert crit.num_rows == 0
