@@ -190,6 +190,9 @@ def _critical_point(model, sh, ss, a, b, window, n, L) -> CriticalPoint:
     t0, cnt = time.perf_counter(), Counters()
     cache = {}
 
+    def peak_T(c):
+        return float(c.T(c.fold_measure()[1]))
+
     def curves(mh):
         if mh not in cache:
             cache[mh] = fm.sample(sh, mh, *window, n, ss, cnt)
@@ -198,14 +201,21 @@ def _critical_point(model, sh, ss, a, b, window, n, L) -> CriticalPoint:
     method = f"zero of the fold measure max(dT/dlog phi0)/T along fixed-mu curves ({n} Chebyshev nodes), Brent in mu"
     try:
         mu_f = brentq(lambda m: curves(m)[0].fold_measure()[0], a, b, xtol=1e-9, rtol=1e-12)
-        mu_h = brentq(lambda m: curves(m)[1].fold_measure()[0], a, b, xtol=1e-9, rtol=1e-12)
-        fine, half = curves(mu_f)[0], curves(mu_h)[1]
-        T_f, T_h = fine.T(fine.fold_measure()[1]), half.T(half.fold_measure()[1])
-    except (ArithmeticError, ValueError, RuntimeError) as exc:
+        fine, half = curves(mu_f)
+        T_f = peak_T(fine)
+        # the half-resolution root by one secant step from mu_f through the nearest other evaluated
+        # mu (no new curves); its distance from mu_f is the interpolation uncertainty of mu_c, and
+        # the uncertainty of T_c adds the slope of T_c(mu) times that distance
+        far = min((m for m in cache if m != mu_f), key=lambda m: abs(m - mu_f))
+        gh = [curves(m)[1].fold_measure()[0] for m in (mu_f, far)]
+        mu_h = mu_f - gh[0] * (far - mu_f) / (gh[1] - gh[0])
+        slope = (T_f - peak_T(curves(far)[0])) / (mu_f - far)
+        T_err = abs(peak_T(half) - T_f) + abs(slope * (mu_h - mu_f))
+    except (ArithmeticError, ValueError, RuntimeError, ZeroDivisionError) as exc:
         return CriticalPoint(model.id, method, math.nan, math.nan, math.nan, math.nan, status="failed",
                              message=f"{type(exc).__name__}: {exc}", shots=cnt.shots,
                              wall_time=time.perf_counter() - t0)
-    return CriticalPoint(model.id, method, float(T_f) * L, mu_f * L, T_err=(abs(T_f - T_h) + 1e-9) * L,
+    return CriticalPoint(model.id, method, T_f * L, mu_f * L, T_err=(T_err + 1e-9) * L,
                          mu_err=(abs(mu_f - mu_h) + 1e-9) * L, message="located", shots=cnt.shots,
                          wall_time=time.perf_counter() - t0,
                          extra={"bracket_mu": [a * L, b * L], "phi0": float(math.exp(fine.l(fine.fold_measure()[1])))})
