@@ -11,10 +11,12 @@ lowest such ``x`` is ``x_c = mu/T_c`` (found by a batched scan of ``x`` from 0.0
 method on the first sign change).
 
 Condensed family. Parametrised by ``s = psi0`` (the horizon value of the scalar, in units r_h = 1),
-each member solves ``src(s, E) = 0`` for ``E``. The family is built once per model, tolerance and
-process, panel by panel: Chebyshev-Lobatto nodes in ``s`` (the first panel starts at the onset
-``s = 0``), all nodes of a panel solved together by a batched Newton iteration; a panel whose
-interpolants of ``x(s)`` and ``rho_hat(s)`` are not resolved to ``1e-11`` is halved. The panels give
+each member solves ``src(s, E) = 0`` for ``E > 0``, iterated in ``log E`` (the horizon field falls
+off exponentially as T -> 0 at fixed mu, so only relative accuracy in E is meaningful). The family
+is built once per model, tolerance and process, panel by panel: Chebyshev-Lobatto nodes in ``s``
+(the first panel starts at the onset ``s = 0``), all nodes of a panel solved together by a batched
+Newton iteration; a panel whose interpolants of ``x(s)`` and ``rho_hat(s)`` are not resolved to
+``1e-10`` is halved, one resolved to ``1e-12`` is followed by one twice as wide. The panels give
 guesses for targeted solves and the pressure by the first law::
 
     P(T=1, x) = P_normal(x_c) + int_{x_c}^{x} rho_hat dx'     (= int rho_hat(s) x'(s) ds)
@@ -36,8 +38,9 @@ from .bulk.hairy_brane import HairyBrane, Shots
 OBS = ("x", "rho_hat", "s_hat", "p_hat", "O_hat")
 #: Chebyshev-Lobatto degree of a family panel
 DEGREE = 14
-#: a panel is accepted when the trailing Chebyshev coefficients of x(s), rho_hat(s) are below this
-PANEL_TOL = 1e-11
+#: a panel is accepted when the trailing Chebyshev coefficients of x(s), rho_hat(s) are below this;
+#: the next panel is twice as wide when they are below PANEL_TOL / 100 (near the shots' noise floor)
+PANEL_TOL = 1e-10
 
 
 class SolveError(ArithmeticError):
@@ -120,7 +123,7 @@ class Panel:
     s: np.ndarray
     E: np.ndarray
     obs: dict                   # name -> values at the nodes
-    poly: dict = field(default_factory=dict)  # name -> Chebyshev interpolant (also "E")
+    poly: dict = field(default_factory=dict)  # name -> Chebyshev interpolant (also "logE")
     P_start: float = 0.0        # first-law pressure (T = 1) at s = a
     tail: float = 0.0           # size of the trailing coefficients (resolution)
 
@@ -145,28 +148,31 @@ class Family:
         self.brane, self.onset, self.rtol, self.offset = brane, onset, rtol, offset
         self.panels: list[Panel] = []
         self.work = Work()
-        self.E_scale = max(abs(onset.E_c), 1e-3)
         self.failed: str | None = None
 
     # -- node solves --------------------------------------------------------------------------------
-    def solve_E(self, s: np.ndarray, E: np.ndarray, max_iter: int = 40):
-        """Batched Newton iteration for E(s) with src(s, E) = 0; returns (E, shots) or raises."""
+    def solve_E(self, s: np.ndarray, E: np.ndarray, max_iter: int = 15):
+        """Batched Newton iteration in log E for src(s, E) = 0; returns (E, shots) or raises."""
         br, n = self.brane, s.size
-        E = E.copy()
-        hE = 1e-7 * self.E_scale
+        if not np.all(E > 0):
+            raise SolveError("non-positive horizon field guessed along the family")
+        L = np.log(E)
+        h = 1e-7
         for _ in range(max_iter):
-            sh = br.shoot(np.concatenate([s, s]), np.concatenate([E, E + hE]), self.rtol, self.offset)
+            sh = br.shoot(np.concatenate([s, s]), np.exp(np.concatenate([L, L + h])), self.rtol, self.offset)
             self.work.add(sh, 2 * n)
             if not np.all(sh.ok):
                 raise SolveError("a family shot failed")
             f0, f1 = sh.src[:n], sh.src[n:]
-            dE = -f0 * hE / (f1 - f0)
-            dE = np.clip(dE, -0.25 * self.E_scale, 0.25 * self.E_scale)
-            E = E + dE
-            if np.all(np.abs(dE) <= max(1e-13, self.rtol) * self.E_scale):
+            if np.any(f1 == f0):
+                raise SolveError("the source no longer responds to the horizon field (E below resolution)")
+            dL = np.clip(-f0 * h / (f1 - f0), -0.5, 0.5)
+            L = L + dL
+            if np.all(np.abs(dL) <= max(1e-13, self.rtol)):
                 break
         else:
             raise SolveError("the family's Newton iteration did not converge")
+        E = np.exp(L)
         fin = br.shoot(s, E, self.rtol, self.offset)
         self.work.add(fin, n)
         if not np.all(fin.ok):
@@ -193,7 +199,7 @@ class Family:
         p = Panel(a, b, s, E, obs)
         for k in OBS:
             p.poly[k] = _fit(s, obs[k], a, b)
-        p.poly["E"] = _fit(s, E, a, b)
+        p.poly["logE"] = _fit(s, np.log(E), a, b)
         p.tail = max(_tail(p.poly["x"]), _tail(p.poly["rho_hat"]))
         return p
 
@@ -217,10 +223,10 @@ class Family:
             a = 0.0
         else:
             last = self.panels[-1]
-            a, w = last.b, (last.b - last.a) * (2.0 if last.tail < 1e-3 * PANEL_TOL else 1.0)
-            lo = Chebyshev.fit(last.s[-6:], last.E[-6:], deg=3)
-            guess = lo
-        for _ in range(12):
+            a, w = last.b, (last.b - last.a) * (2.0 if last.tail < 1e-2 * PANEL_TOL else 1.0)
+            lo = Chebyshev.fit(last.s[-6:], np.log(last.E[-6:]), deg=3)
+            guess = lambda s: np.exp(lo(s))  # noqa: E731
+        for _ in range(6):
             try:
                 p = self._make_panel(a, a + w, guess)
             except SolveError:
@@ -244,15 +250,28 @@ class Family:
         f = (p.poly["rho_hat"] * p.poly["x"].deriv()).integ(lbnd=p.a)
         return float(f(s))
 
-    def ensure(self, x: float, max_panels: int = 200) -> None:
+    def ensure(self, x: float, max_panels: int = 80) -> None:
+        """Extend the family until it reaches mu/T = x. Panels depend only on their predecessors, so
+        the family (and every result drawn from it) does not depend on the order of requests; a
+        failure to extend is remembered and reported again without new work."""
         while not self.panels or self.panels[-1].obs["x"][-1] < x:
+            if self.failed is not None:
+                raise SolveError(self.failed)
             if len(self.panels) >= max_panels:
-                raise SolveError(f"mu/T = {x:.6g} lies beyond the family built so far "
+                raise SolveError(f"mu/T = {x:.6g} lies beyond the {max_panels} panels of the condensed family "
                                  f"(mu/T <= {self.panels[-1].obs['x'][-1]:.6g})")
             prev_x = self.panels[-1].obs["x"][-1] if self.panels else self.onset.x_c
-            self.extend()
-            if not self.panels[-1].obs["x"][-1] > prev_x:
-                raise SolveError("mu/T stopped growing along the condensed family")
+            if self.panels and self.panels[-1].E[-1] < 1e-30 * self.onset.E_c:
+                self.failed = (f"the condensed family is followed only to mu/T = {prev_x:.6g}: there the horizon "
+                               "field has fallen below 1e-30 of its onset value (deep in the condensed phase)")
+                raise SolveError(self.failed)
+            try:
+                self.extend()
+                if not self.panels[-1].obs["x"][-1] > prev_x:
+                    raise SolveError("mu/T stopped growing along the condensed family")
+            except SolveError as exc:
+                self.failed = f"condensed family ends at mu/T = {prev_x:.6g}: {exc}"
+                raise SolveError(self.failed) from None
 
     def locate(self, x: float):
         """(s, E) of the member with mu/T = x, from the interpolants (a guess for Newton)."""
@@ -262,7 +281,7 @@ class Family:
         for p in self.panels:
             if p.obs["x"][0] <= x <= p.obs["x"][-1]:
                 s = brentq(lambda t: p.poly["x"](t) - x, p.a, p.b, xtol=1e-15, rtol=1e-15)
-                return s, float(p.poly["E"](s))
+                return s, float(np.exp(p.poly["logE"](s)))
         raise SolveError(f"mu/T = {x:.6g} not found on the condensed family (x is not monotone in psi0)")
 
     def pressure(self, s: float) -> tuple[float, float]:
@@ -290,34 +309,43 @@ class Member:
 
 def solve_member(brane: HairyBrane, x: float, guess, rtol: float, offset: float, work: Work,
                  max_iter: int = 30) -> Member:
-    """2D Newton on (psi0, E) for src = 0 and mu/T = x (forward-difference Jacobian)."""
-    u = np.array(guess, float)
-    scale = np.array([max(abs(u[0]), 1e-8), max(abs(u[1]), 1e-3)])
-    h = 1e-7 * scale
+    """2D Newton iteration in (log psi0, log E) on (src, x(psi0, E)/x - 1), forward-difference
+    Jacobian. Stops when the step is below max(rtol, 1e-13), or at the noise floor of the shots (the
+    step stops shrinking while both conditions hold to 1000 rtol; close to the onset x(psi0) is flat
+    and the floor is high, which the caller's error estimate then reports)."""
+    if not (guess[0] > 0 and guess[1] > 0):
+        raise SolveError("the targeted solve needs psi0 > 0 and E > 0")
+    v = np.log(np.array(guess, float))
+    h = 1e-7
+    prev = math.inf
     last = None
     for it in range(1, max_iter + 1):
-        P = np.array([u[0], u[0] + h[0], u[0]])
-        Q = np.array([u[1], u[1], u[1] + h[1]])
-        sh = brane.shoot(P, Q, rtol, offset)
+        V = np.exp(np.array([v, v + [h, 0.0], v + [0.0, h]]))
+        sh = brane.shoot(V[:, 0], V[:, 1], rtol, offset)
         work.add(sh, 3)
         if not np.all(sh.ok):
             raise SolveError("a shot of the targeted solve failed")
-        F = np.array([sh.src, (sh.x - x) / x])
-        J = np.column_stack([(F[:, 1] - F[:, 0]) / h[0], (F[:, 2] - F[:, 0]) / h[1]])
+        F = np.array([sh.src, sh.x / x - 1.0])
+        J = (F[:, 1:] - F[:, :1]) / h
         try:
-            du = -np.linalg.solve(J, F[:, 0])
+            dv = -np.linalg.solve(J, F[:, 0])
         except np.linalg.LinAlgError:
             raise SolveError("singular Jacobian in the targeted solve") from None
-        lim = 0.2 * scale
-        du = np.clip(du, -lim, lim)
+        dv = np.clip(dv, -0.5, 0.5)
         last = sh
-        if np.all(np.abs(du) <= max(1e-13, rtol) * scale):
+        step = float(np.max(np.abs(dv)))
+        if step <= max(1e-13, rtol):
             break
-        u = u + du
+        floor = abs(F[0, 0]) <= 1e3 * rtol * abs(float(sh.vev[0])) and abs(F[1, 0]) <= 1e3 * rtol
+        if it >= 3 and step > 0.5 * prev and floor:
+            break
+        prev = step
+        v = v + dv
     else:
         raise SolveError("the targeted Newton iteration did not converge")
     vals = {k: float(getattr(last, k)[0]) for k in OBS}
-    return Member(float(u[0]), float(u[1]), vals, abs(float(last.src[0]) / float(last.vev[0])),
+    s_, E_ = np.exp(v)
+    return Member(float(s_), float(E_), vals, abs(float(last.src[0]) / float(last.vev[0])),
                   float(last.residual[0]), it)
 
 
@@ -325,7 +353,7 @@ def family_gradients(brane: HairyBrane, m: Member, step: float, rtol: float, off
     """Derivatives along the family (tangent (dsrc/dE, -dsrc/dpsi0), normalised) of the observables
     OBS at member m: central differences with steps h and 2h in psi0 and E, Richardson-extrapolated.
     Returns (dict name -> derivative, relative error estimate)."""
-    hs = np.array([step * m.s, step * max(abs(m.E), 1e-3)])
+    hs = np.array([step * m.s, step * m.E])
     P, Q = [], []
     for k in range(2):
         for f in (1, -1, 2, -2):
