@@ -328,3 +328,33 @@ def test_spec_and_registration():
     assert "kappa_sq" not in model_from_block(block()).spec()
     rows = solve_point(m, 1.0, 0.5)
     assert rows[0].kind == "charged-scalar"
+
+
+def test_ads5_probe_condensed_points():
+    # d = 4 probe, both quantisations of m^2 = -15/4: condensed points solve, with the first-law pressure
+    # equal to the on-shell action (two routes; common practice, no source) and P above the normal P.
+    for delta in (2.5, 1.5):
+        m = model_from_block(block(d=4, m_sq=-3.75, delta=delta))
+        Tc = m.onset(1.0)["T_c"]
+        b = branches(m, 0.6 * Tc, 1.0)
+        c = b["condensed"]
+        assert c.status is Status.OK, c.message
+        assert c.P_check == pytest.approx(c.P, rel=1e-9) and c.P > b["normal"].P
+        assert c.cs2 == pytest.approx(1.0 / 3.0, rel=1e-6)
+
+
+def test_failures_are_reported_not_raised(probe2):
+    # Within 1e-9 of T_c, x(psi0) is flat and psi0 is fixed only to the shots' noise: the point must be
+    # reported with its (large) error estimate rather than as ok, never as a silent NaN.
+    Tc = probe2.onset(1.0)["T_c"]
+    c = branches(probe2, Tc * (1 - 1e-9), 1.0)["condensed"]
+    assert c.status in (Status.OK, Status.NOT_CONVERGED)
+    assert math.isfinite(c.P) and math.isfinite(c.extra["condensate"])
+    if c.status is Status.NOT_CONVERGED:
+        assert "estimated error" in c.message and c.error_estimate > DEFAULT.accept_error
+    # the probe O_1 condensate grows without bound as T -> 0 and the horizon field underflows: the
+    # family ends, and points beyond are FAILED with the reason, with NaN observables
+    m = model_from_block(block(delta=1.0))
+    Tc1 = m.onset(1.0)["T_c"]
+    c = branches(m, 0.05 * Tc1, 1.0)["condensed"]
+    assert c.status is Status.FAILED and "condensed family" in c.message and math.isnan(c.P)

@@ -294,7 +294,7 @@ class ChargedScalarModel:
             mt = solve_member(brane, x, (m.s, m.E), ss.tighter().rtol, ss.horizon_offset, tight_work)
             deriv, deriv_err = family_gradients(brane, m, settings.fd_step, ss.tighter(10).rtol, ss.horizon_offset, work)
             P_fam, P_fam_err = fam.pressure(m.s)
-        except (SolveError, ValueError, np.linalg.LinAlgError) as exc:
+        except (ArithmeticError, ValueError, np.linalg.LinAlgError) as exc:  # SolveError is an ArithmeticError
             return PointResult(**common, status=Status.FAILED, message=str(exc), nfev=work.nfev, nsteps=work.nsteps,
                                niter=work.shots, wall_time=time.perf_counter() - t0,
                                extra={"phase": "condensed", **onset_extra})
@@ -309,7 +309,7 @@ class ChargedScalarModel:
         s, rho, P = sh_ * T ** (d - 1), sign * rh_ * T ** (d - 1), ph_ * T**d
         P_check = P_fam * T**d
         err = max(abs(mt.vals[k] - o[k]) / max(abs(mt.vals[k]), 1e-300) for k in ("rho_hat", "s_hat", "p_hat", "O_hat"))
-        P_mismatch = abs(P - P_check) / abs(P)
+        P_mismatch = abs(P - P_check) / max(abs(P), 1e-300)
         error = max(err, P_mismatch)
         target = abs(o["x"] - x) / x
         residual = max(m.residual, m.src_ratio)
