@@ -43,6 +43,15 @@ normal branch the Euler relation. ``trace_anomaly`` is 0 (conformal; epsilon is 
 
 Branches returned by :meth:`ChargedScalarModel.solve`: 0 the normal brane (closed form, always),
 1 the condensed nodeless brane when ``|mu|/T > x_c`` (shooting; see :mod:`holoscan.hairy_solver`).
+Every result's ``extra`` holds ``phase`` ("normal" or "condensed"), ``condensate`` (<O>, 0.0 on the
+normal branch), ``T_c`` (the onset temperature at this |mu|, ``|mu|/x_c``) and ``mu_over_T_c`` (x_c).
+
+Solver record of a condensed result: ``error_estimate`` is the larger of the relative change of
+(rho, s, P, <O>) under a re-solve with 100x tighter tolerances and ``|P - P_check|/|P|``;
+``residual`` is the larger of ``|source/vev|`` at the solution and, with backreaction, the drift of
+the radially conserved charge between the horizon and r = 2, 40 (there is no independent
+constraint in the probe limit); ``nfev``/``nsteps`` count the point's own shots, not the onset and
+family work cached once per model, tolerance and process (:data:`_CACHE`).
 """
 from __future__ import annotations
 
