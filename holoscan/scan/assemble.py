@@ -14,6 +14,7 @@ import pyarrow.parquet as pq
 
 from .. import __version__
 from ..result import Status
+from .sizing import measured, read_costs, write_costs
 from .store import atomic_write_text, seal_path, sha256_file
 from .tables import SCHEMA_VERSION, schema
 
@@ -61,6 +62,11 @@ def assemble(table_file, out_table, summary_json, summary_txt=None) -> dict:
     tmp = out.with_name(f".{out.name}.tmp-{os.getpid()}")
     pq.write_table(table, tmp)
     os.replace(tmp, out)
+    keys = {m: d["cost_key"] for m, d in doc["models"].items() if "cost_key" in d}
+    if keys:  # the per-point cost each model showed, for sizing the chunks of later plans
+        costs = read_costs(root)
+        costs.update(measured(table.select(["model_id", "point_key", "start_time", "end_time"]).to_pylist(), keys))
+        write_costs(root, costs)
     summary = summarize(table, doc["model_order"])
     atomic_write_text(Path(summary_json), json.dumps(summary, indent=2))
     if summary_txt:

@@ -90,6 +90,7 @@ class ModelPlan:
     settings: SolverSettings
     points: tuple
     points_per_job: int
+    explicit_points_per_job: bool = False  # the model block gave its own points_per_job
 
 
 @dataclass(frozen=True)
@@ -99,6 +100,7 @@ class ScanConfig:
     points_per_job: int
     max_jobs: int
     raw: dict
+    job_minutes: float | None = None  # size chunks from measured cost (see scan/sizing.py)
 
     @property
     def n_points(self) -> int:
@@ -134,13 +136,15 @@ def validate_scan_config(doc, schema: dict | None = None) -> ScanConfig:
             pts = grid_points(doc["grid"], "grid")
         else:
             raise InputError(f"{key}.grid", None, "no grid: give a top-level 'grid' or one in the model block")
-        plans.append(ModelPlan(model, settings, tuple(pts), int(block.get("points_per_job", doc.get("points_per_job", 200)))))
+        plans.append(ModelPlan(model, settings, tuple(pts), int(block.get("points_per_job", doc.get("points_per_job", 200))),
+                               "points_per_job" in block))
     return ScanConfig(
         scan=doc["scan"],
         models=tuple(plans),
         points_per_job=int(doc.get("points_per_job", 200)),
         max_jobs=int(doc.get("max_jobs", 1000)),
         raw=doc,
+        job_minutes=float(doc["job_minutes"]) if "job_minutes" in doc else None,
     )
 
 

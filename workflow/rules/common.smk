@@ -21,6 +21,9 @@ except ConfigProblem as exc:
 if workflow.is_main_process:
     for chunk, reason in PLAN.quarantined:
         print(f"holoscan: segment {chunk} quarantined ({reason}); its points will be solved again", file=sys.stderr)
+    for mid, ppj, sec, source in PLAN.sizing:
+        if source in ("probe", "measured"):
+            print(f"holoscan: model '{mid}': {sec:.3g} s per point ({source}) -> {ppj} points per job", file=sys.stderr)
     print(
         f"holoscan: scan '{PLAN.scan}': {PLAN.n_points} points, {PLAN.n_missing} to solve "
         f"in {len(PLAN.chunk_ids)} job(s) of <= {PLAN.chunk_size} points",
@@ -45,3 +48,11 @@ def get_segments(wildcards):
 
 def get_lines(wildcards):
     return [str(p) for k in PLAN.lines_ids for p in PLAN.lines_outputs(k)]
+
+
+def chunk_runtime(chunk, attempt):
+    """Runtime (minutes) of a chunk job; an hour per attempt when its cost is not known yet."""
+    from holoscan.scan.sizing import runtime_minutes
+
+    seconds = (PLAN.chunk_seconds or {}).get(chunk)
+    return runtime_minutes(seconds if seconds is not None else 1200.0, attempt)

@@ -9,5 +9,8 @@ rule solve_chunk:
         "logs/solve_chunk/{scan}/{chunk}.log",
     wildcard_constraints:
         chunk="[0-9a-f]{16}",
+    resources:
+        # minutes to ask a scheduler for: 3x the chunk's expected time, >= 10, times the attempt
+        runtime=lambda wc, attempt: chunk_runtime(wc.chunk, attempt),
     shell:
         "{PY} -m holoscan solve-chunk {input.manifest} --out {output.segment} --log {log} > {log} 2>&1"
