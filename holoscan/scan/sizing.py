@@ -4,7 +4,7 @@ With ``job_minutes`` in the scan config, a model without its own ``points_per_jo
 ``points_per_job = floor(job_minutes * 60 / seconds_per_point)`` (at least 1), where
 ``seconds_per_point`` is, in order of preference:
 
-1. measured: the median over the model's points in the last assembled table of the scan of the
+1. measured: the mean over the model's points in the last assembled table of the scan of the
    time each point took (``end_time - start_time``), stored in ``results/<scan>/costs.json`` by
    assembly under a key of the model context (spec, solver settings, physics code);
 2. probed: one point (the middle of the model's grid) solved at planning time in the main process,
@@ -79,6 +79,6 @@ def measured(rows, keys_by_model: dict) -> dict:
         except (TypeError, ValueError):
             continue
         by_model.setdefault(mid, []).append(dt)
-    return {keys_by_model[m]: {"model_id": m, "seconds_per_point": statistics.median(v), "points": len(v),
+    return {keys_by_model[m]: {"model_id": m, "seconds_per_point": statistics.fmean(v), "points": len(v),
                                "source": "measured"}
             for m, v in by_model.items() if m in keys_by_model and v}
