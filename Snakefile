@@ -7,6 +7,8 @@ include: "workflow/rules/common.smk"
 include: "workflow/rules/solve.smk"
 include: "workflow/rules/assemble.smk"
 include: "workflow/rules/phases.smk"
+include: "workflow/rules/figures.smk"
+include: "workflow/rules/provenance.smk"
 
 
 rule all:

@@ -39,7 +39,8 @@ def get_final_targets():
     root = f"results/{PLAN.scan}"
     tables = [f"{root}/{n}" for n in ("points.parquet", "summary.json", "phases.parquet", "transitions.parquet",
                                       "critical_points.parquet")]
-    return [*tables, *new, *get_lines(None)]
+    # figure_targets and provenance_targets live in figures.smk and provenance.smk
+    return [*tables, *new, *get_lines(None), *figure_targets(), *provenance_targets()]
 
 
 def get_segments(wildcards):
