@@ -130,6 +130,25 @@ def cmd_audit(args) -> int:
     return 0
 
 
+def cmd_provenance(args) -> int:
+    from .scan.provenance import write
+
+    counts = write(args.results_dir, args.out)
+    print(f"wrote {args.out}: " + ", ".join(f"{v} {k}" for k, v in sorted(counts.items())))
+    if args.ro_crate:
+        from .scan.ro_crate import write_crate
+
+        print(f"wrote {write_crate(args.results_dir, args.out)}")
+    return 0
+
+
+def cmd_summary(args) -> int:
+    from .scan.report_summary import collect, summary_text
+
+    print(summary_text(collect(args.results_dir)), end="")
+    return 0
+
+
 def build_parser() -> argparse.ArgumentParser:
     p = argparse.ArgumentParser(prog="holoscan", description="Charged black-brane thermodynamics.")
     p.add_argument("--version", action="version", version=f"holoscan {__version__}")
@@ -188,6 +207,17 @@ def build_parser() -> argparse.ArgumentParser:
     pt2.add_argument("--summary", default=None)
     pt2.add_argument("--summary-text", default=None)
     pt2.set_defaults(func=cmd_phase_tables)
+
+    pv = sub.add_parser("provenance", help="W3C PROV record (PROV-JSON) of a finished scan")
+    pv.add_argument("results_dir", metavar="RESULTS_DIR", help="results/<scan> of a finished scan")
+    pv.add_argument("--out", required=True, help="PROV-JSON file to write")
+    pv.add_argument("--ro-crate", action="store_true",
+                    help="also write RESULTS_DIR/ro-crate-metadata.json (Workflow Run RO-Crate)")
+    pv.set_defaults(func=cmd_provenance)
+
+    sm = sub.add_parser("summary", help="short text summary of a finished scan")
+    sm.add_argument("results_dir", metavar="RESULTS_DIR", help="results/<scan> of a finished scan")
+    sm.set_defaults(func=cmd_summary)
     return p
 
 
