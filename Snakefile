@@ -1,6 +1,7 @@
 # holoscan workflow: (T, mu) scans of charged black branes into Parquet phase-diagram tables.
 # The rules live in workflow/rules/; this file only includes them.
 configfile: "config/config.yaml"
+report: "workflow/report/workflow.rst"
 
 
 include: "workflow/rules/common.smk"
