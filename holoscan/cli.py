@@ -133,12 +133,12 @@ def cmd_audit(args) -> int:
 def cmd_provenance(args) -> int:
     from .scan.provenance import write
 
-    counts = write(args.results_dir, args.out)
+    counts = write(args.results_dir, args.out, args.figures)
     print(f"wrote {args.out}: " + ", ".join(f"{v} {k}" for k, v in sorted(counts.items())))
     if args.ro_crate:
         from .scan.ro_crate import write_crate
 
-        print(f"wrote {write_crate(args.results_dir, args.out)}")
+        print(f"wrote {write_crate(args.results_dir, args.out, args.figures)}")
     return 0
 
 
@@ -146,6 +146,19 @@ def cmd_summary(args) -> int:
     from .scan.report_summary import collect, summary_text
 
     print(summary_text(collect(args.results_dir)), end="")
+    return 0
+
+
+def cmd_figures(args) -> int:
+    from .figures import write_figures
+
+    try:
+        written = write_figures(args.results_dir)
+    except FileNotFoundError as exc:
+        print(f"holoscan: error: {exc}", file=sys.stderr)
+        return 3
+    for path in written:
+        print(f"wrote {path}")
     return 0
 
 
@@ -208,11 +221,18 @@ def build_parser() -> argparse.ArgumentParser:
     pt2.add_argument("--summary-text", default=None)
     pt2.set_defaults(func=cmd_phase_tables)
 
+    fg = sub.add_parser("figures", help="phase diagrams, equation of state, condensate and convergence "
+                        "figures (PNG, PDF) of a finished scan, under RESULTS_DIR/figures")
+    fg.add_argument("results_dir", metavar="RESULTS_DIR", help="results/<scan> of a finished scan")
+    fg.set_defaults(func=cmd_figures)
+
     pv = sub.add_parser("provenance", help="W3C PROV record (PROV-JSON) of a finished scan")
     pv.add_argument("results_dir", metavar="RESULTS_DIR", help="results/<scan> of a finished scan")
     pv.add_argument("--out", required=True, help="PROV-JSON file to write")
+    pv.add_argument("--figures", nargs="*", default=None, metavar="FILE",
+                    help="the figure files to record (default: every file under RESULTS_DIR/figures)")
     pv.add_argument("--ro-crate", action="store_true",
-                    help="also write RESULTS_DIR/ro-crate-metadata.json (Workflow Run RO-Crate)")
+                    help="also write RESULTS_DIR/ro-crate-metadata.json (RO-Crate 1.1, process run crate)")
     pv.set_defaults(func=cmd_provenance)
 
     sm = sub.add_parser("summary", help="short text summary of a finished scan")

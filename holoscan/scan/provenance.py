@@ -86,7 +86,7 @@ class _Builder:
     def file(self, path: Path, kind: str, extra: dict | None = None) -> str:
         path = Path(path).resolve()
         if not path.is_relative_to(self.root):
-            raise InputError("file", str(path), f"not inside the scan folder {self.root}")
+            raise InputError("--figures", str(path), f"not inside the scan folder {self.root}")
         rel = path.relative_to(self.root).as_posix()
         attrs = {"prov:type": qname(kind), "prov:label": rel, "holoscan:path": rel,
                  "holoscan:sha256": sha256_file(path), "holoscan:bytes": Path(path).stat().st_size}
@@ -227,7 +227,7 @@ def build(results_dir, figures=None) -> ProvDoc:
             b.used(fa, e)
         for f in figs:
             if not Path(f).is_file():
-                raise InputError("figure", str(f), "no such file")
+                raise InputError("--figures", str(f), "no such file")
             b.gen(b.file(f, "holoscan:Figure"), fa)
     return doc
 

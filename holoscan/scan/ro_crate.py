@@ -31,10 +31,10 @@ def _value(v):
     return v["$"] if isinstance(v, dict) else v
 
 
-def crate(results_dir, prov_file=None) -> dict:
-    """The crate's JSON-LD document (a dict)."""
+def crate(results_dir, prov_file=None, figures=None) -> dict:
+    """The crate's JSON-LD document (a dict); ``figures`` as in :func:`holoscan.scan.provenance.build`."""
     root = Path(results_dir).resolve()
-    prov = build(root).to_dict()
+    prov = build(root, figures).to_dict()
     files, path_of = {}, {}
     for ident, a in prov.get("entity", {}).items():
         if "holoscan:path" in a:
@@ -96,8 +96,8 @@ def crate(results_dir, prov_file=None) -> dict:
     return {"@context": [CONTEXT, {"sha256": SHA256_TERM}], "@graph": graph}
 
 
-def write_crate(results_dir, prov_file=None) -> Path:
+def write_crate(results_dir, prov_file=None, figures=None) -> Path:
     """Write ``results_dir/ro-crate-metadata.json``; returns its path."""
     out = Path(results_dir) / NAME
-    atomic_write_text(out, json.dumps(crate(results_dir, prov_file), indent=1, sort_keys=True) + "\n")
+    atomic_write_text(out, json.dumps(crate(results_dir, prov_file, figures), indent=1, sort_keys=True) + "\n")
     return out

@@ -17,7 +17,8 @@ rule provenance:
     log:
         "logs/provenance/{scan}.log",
     shell:
-        "{PY} -m holoscan provenance results/{wildcards.scan} --out {output.prov} --ro-crate > {log} 2>&1"
+        "{PY} -m holoscan provenance results/{wildcards.scan} --out {output.prov} --ro-crate "
+        "--figures {input.figures} > {log} 2>&1"
 
 
 def provenance_targets():
