@@ -1,0 +1,53 @@
+"""Figures of a finished scan: PNG and PDF files under ``results/<scan>/figures/``.
+
+Made from the scan's tables only (``points``, ``phases``, ``transitions``, ``critical_points``), never
+by solving anything. Every figure shows model computations in classical gravity, not measurements.
+
+Files (relative to ``results/<scan>/``), for every model of the scan:
+
+- ``figures/<model>-phase-diagram.{png,pdf}``: dominant phase over the (mu, T) grid and the located lines;
+- ``figures/<model>-eos.{png,pdf}``: reduced equation of state of the dominant branch;
+- ``figures/<model>-condensate.{png,pdf}``: the condensate against T/T_c (kind ``charged-scalar`` only);
+
+and once per scan ``figures/convergence.{png,pdf}`` (error estimate and first-law mismatch) and
+``figures/figures.json`` (the list of files with the code hash and version of the tables).
+
+This module does not import matplotlib: :func:`figure_files` is called when the workflow is parsed.
+The plotting modules import it (Agg backend, no display) when :func:`write_figures` runs.
+"""
+from __future__ import annotations
+
+FORMATS = ("png", "pdf")
+MANIFEST = "figures/figures.json"
+
+
+def model_figure_stems(model_id: str, kind: str) -> list[str]:
+    """Stems (no extension) of the figures of one model, relative to ``results/<scan>/``."""
+    stems = [f"figures/{model_id}-phase-diagram", f"figures/{model_id}-eos"]
+    if kind == "charged-scalar":
+        stems.append(f"figures/{model_id}-condensate")
+    return stems
+
+
+def figure_files(models: list[tuple[str, str]]) -> list[str]:
+    """Every figure file of a scan with these ``(model_id, kind)`` pairs, relative to ``results/<scan>/``.
+
+    Known before any table exists, so the workflow can list them as targets. The manifest
+    ``figures/figures.json`` is not included (see :data:`MANIFEST`).
+    """
+    stems = [s for mid, kind in models for s in model_figure_stems(mid, kind)]
+    stems.append("figures/convergence")
+    return [f"{s}.{ext}" for s in stems for ext in FORMATS]
+
+
+def write_figures(results_dir, models: list[tuple[str, str]] | None = None) -> list[str]:
+    """Write every figure of the scan in ``results_dir``; returns the paths written (with the manifest).
+
+    ``models`` defaults to the models of the scan's config (stored in the points table's metadata).
+    """
+    from .render import write_all
+
+    return write_all(results_dir, models)
+
+
+__all__ = ["FORMATS", "MANIFEST", "figure_files", "model_figure_stems", "write_figures"]

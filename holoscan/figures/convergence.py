@@ -1,0 +1,112 @@
+"""Convergence map of a scan: ``error_estimate`` and ``P_mismatch`` over each model's grid.
+
+Both are relative (dimensionless): ``error_estimate`` is the largest relative change of ``s, rho,
+epsilon, P`` when the solve is repeated with 100x tighter tolerances, ``P_mismatch`` is
+``|P - P_check| / |P|`` (two routes to the pressure; a first-law check). At each grid point the
+worst branch is shown, on one logarithmic colour scale shared by all panels; values at or below
+``FLOOR`` (exact zeros of closed forms included) are drawn at ``FLOOR``. The solver's acceptance
+threshold (``accept_error``) is marked on the colour bar. Failed points (no value) and points where
+some branch did not converge are marked.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+from matplotlib.colors import LogNorm
+from matplotlib.lines import Line2D
+
+from .data import ScanTables, log_T_axis, model_info
+from .raster import nearest_raster
+from .style import BAD_MARKERS, FAILED_STATUSES, new_figure, no_data, plain_log_ticks
+
+FLOOR = 1e-16
+COLUMNS = (("error_estimate", "error_estimate"), ("P_mismatch", "P_mismatch"))
+
+
+@dataclass
+class ConvergenceFigure:
+    """The figure; ``panels[(model_id, column)] = (axes, per-point table)``; marked failed points."""
+
+    fig: object
+    panels: dict = field(default_factory=dict)
+    marked: dict = field(default_factory=dict)
+
+
+def per_point(points: pd.DataFrame, model_id: str) -> pd.DataFrame:
+    """Worst value of each column over the branches at each grid point, and the point's status."""
+    p = points[points["model_id"] == model_id]
+    if not len(p):
+        return pd.DataFrame(columns=["T", "mu", "status", *[c for c, _ in COLUMNS]])
+    p = p.assign(_ok=(p["status"] == "ok").astype(int), _failed=p["status"].isin(FAILED_STATUSES).astype(int))
+    agg = p.groupby(["T", "mu"], sort=True).agg(
+        **{c: (c, "max") for c, _ in COLUMNS}, n_ok=("_ok", "sum"), n_failed=("_failed", "sum"),
+        n=("status", "size")).reset_index()
+    agg["status"] = np.where(agg["n_failed"] == agg["n"], "failed",
+                             np.where(agg["n_ok"] == agg["n"], "ok", "unconverged"))
+    return agg
+
+
+def plot_convergence(tables: ScanTables, models: list[tuple[str, str]]) -> ConvergenceFigure:
+    """Draw the convergence map of every model of the scan (see the module docstring)."""
+    n = max(1, len(models))
+    fig = new_figure(figsize=(10.0, 2.8 * n + 1.2))
+    axes = np.atleast_2d(fig.subplots(n, 2, squeeze=False))
+    out = ConvergenceFigure(fig)
+    pts = tables.points
+    vals = pd.concat([pts[c] for c, _ in COLUMNS]) if len(pts) else pd.Series(dtype=float)
+    vmax = max(float(np.nanmax(vals.to_numpy(float))) if vals.notna().any() else FLOOR * 10, FLOOR * 10)
+    accept = pts["accept_error"].dropna().unique() if "accept_error" in pts else []
+    vmax = max(vmax, *[float(a) for a in accept], FLOOR * 10)
+    norm = LogNorm(vmin=FLOOR, vmax=vmax * 1.5)
+    fig.suptitle(f"scan '{tables.scan}': convergence of every grid point (worst branch at each point)\n"
+                 "left: error_estimate (relative change at 100x tighter tolerances); "
+                 "right: P_mismatch = |P - P_check|/|P|\n"
+                 f"tables from code {tables.code_hash}, holoscan {tables.package_version}")
+    mesh = None
+    for r, (mid, kind) in enumerate(models):
+        info = model_info(tables, mid, kind)
+        pp = per_point(pts, mid) if len(pts) else per_point(pd.DataFrame(columns=["model_id"]), mid)
+        for c, (col, text) in enumerate(COLUMNS):
+            ax = axes[r, c]
+            out.panels[(mid, col)] = (ax, pp)
+            ax.set_title(f"{mid}: {text}")
+            ax.set_xlabel(rf"$\mu$ [{info.unit}]")
+            ax.set_ylabel(f"T [{info.unit}]")
+            if not len(pp):
+                no_data(ax, "no grid points")
+                continue
+            log_T = log_T_axis(pp["T"])
+            if log_T:
+                ax.set_yscale("log")
+                plain_log_ticks(ax.yaxis)
+            mu_e, T_e, idx = nearest_raster(pp["mu"].to_numpy(float), pp["T"].to_numpy(float), log_T, n=160)
+            v = np.clip(pp[col].to_numpy(float), FLOOR, None)
+            img = np.where(idx >= 0, v[np.clip(idx, 0, None)], np.nan)
+            mesh = ax.pcolormesh(mu_e, T_e, np.ma.masked_invalid(img), norm=norm, cmap="cividis",
+                                 rasterized=True, shading="flat")
+            if (pp[col].fillna(0) == 0).all() and pp[col].notna().any():
+                ax.text(0.02, 0.95, "all values exactly 0", transform=ax.transAxes, va="top", color="white",
+                        fontsize=8)
+            for key, (marker, face, edge, _) in BAD_MARKERS.items():
+                sel = pp[pp["status"] == key]
+                out.marked[(mid, key)] = list(zip(sel["mu"].astype(float), sel["T"].astype(float)))
+                if len(sel):
+                    ax.plot(sel["mu"], sel["T"], ls="", marker=marker, ms=9, mfc=face if face != "none" else "none",
+                            mec="white" if key == "failed" else edge, mew=1.6, color=edge, clip_on=False, zorder=5)
+            ax.set_xlim(mu_e[0], mu_e[-1])
+            ax.set_ylim(T_e[0], T_e[-1])
+    if mesh is not None:
+        cb = fig.colorbar(mesh, ax=axes.ravel().tolist(), shrink=0.9, pad=0.01)
+        acc = ", ".join(f"{float(a):g}" for a in accept)
+        cb.set_label(f"relative value (values <= {FLOOR:g}, exact 0 included, drawn at {FLOOR:g})"
+                     + (f"\nwhite line: accept_error = {acc}" if acc else ""))
+        for a in accept:
+            cb.ax.axhline(float(a), color="white", lw=2.0)
+    counts = {k: sum(len(v) for (_, kk), v in out.marked.items() if kk == k) for k in BAD_MARKERS}
+    handles = [Line2D([], [], ls="", marker=m, ms=8, mfc=f if f != "none" else "none", mec=e, mew=1.6,
+                      color=e, label=f"grid point {t} ({counts[k]} in this scan)")
+               for k, (m, f, e, t) in BAD_MARKERS.items()]
+    fig.legend(handles=handles, loc="outside lower center", ncols=2, frameon=False)
+    return out

@@ -1,0 +1,110 @@
+"""Matplotlib set-up shared by the figures: Agg backend, fonts, the Okabe-Ito palette, saving.
+
+The palette is Okabe & Ito's colour-blind-safe set of eight colours (common practice, no source).
+Files are written so that the same tables give the same bytes: no creation date in the PDF, none
+in the PNG (matplotlib writes only its version there), fixed DPI, no random state.
+"""
+from __future__ import annotations
+
+from pathlib import Path
+
+import matplotlib
+
+matplotlib.use("Agg")  # files only, never a display
+
+import matplotlib.pyplot as plt  # noqa: E402
+
+OKABE_ITO = {
+    "black": "#000000",
+    "orange": "#E69F00",
+    "sky": "#56B4E9",
+    "green": "#009E73",
+    "yellow": "#F0E442",
+    "blue": "#0072B2",
+    "vermillion": "#D55E00",
+    "purple": "#CC79A7",
+}
+#: colours for curves at several mu, in order
+SERIES = [OKABE_ITO[k] for k in ("blue", "orange", "green", "vermillion", "purple", "sky", "black", "yellow")]
+
+#: shading of each dominant phase in the phase diagrams (light tints of the palette)
+PHASE_COLOURS = {
+    "unique": "#D9D9D9",  # one branch only: neutral grey
+    "normal": "#A6D5F2",  # sky, light
+    "condensed": "#F5CC7F",  # orange, light
+    "high-entropy": "#F2A27F",  # vermillion, light
+    "intermediate": "#E5BCD3",  # purple, light
+    "low-entropy": "#7FCEB9",  # green, light
+    "none": "#FFFFFF",  # no locally stable branch
+}
+
+#: line styles of the transition types: (colour, linestyle, linewidth, legend text)
+LINE_STYLES = {
+    "first-order": (OKABE_ITO["black"], "-", 2.2, "first-order line (equal grand potential)"),
+    "second-order": (OKABE_ITO["blue"], "--", 2.0, "second-order line (condensation onset)"),
+    "crossover": (OKABE_ITO["vermillion"], ":", 2.2, "crossover (maximum of ds/dT at fixed mu)"),
+    "instability": (OKABE_ITO["purple"], "-", 0.9, "instability locus (spinodal / fold)"),
+}
+
+#: markers of grid points whose solve is not clean: status -> (marker, face, edge, legend text)
+BAD_MARKERS = {
+    "failed": ("X", OKABE_ITO["black"], OKABE_ITO["black"], "failed / no solution"),
+    "unconverged": ("D", "none", OKABE_ITO["vermillion"], "not converged (some branch)"),
+}
+FAILED_STATUSES = ("failed", "no solution")
+UNCONVERGED_STATUSES = ("not converged", "incomplete")
+
+RC = {
+    "font.size": 10,
+    "axes.titlesize": 10,
+    "axes.labelsize": 10,
+    "legend.fontsize": 8,
+    "xtick.labelsize": 9,
+    "ytick.labelsize": 9,
+    "figure.dpi": 100,
+    "savefig.dpi": 150,
+    "axes.grid": False,
+    "svg.hashsalt": "holoscan",
+    "path.simplify": True,
+}
+
+PNG_METADATA = {"Software": None}
+PDF_METADATA = {"CreationDate": None, "ModDate": None, "Creator": "holoscan", "Producer": None}
+
+
+matplotlib.rcParams.update(RC)  # this module runs only in the figures process
+
+
+def new_figure(**kwargs):
+    """A figure with the shared style and constrained layout."""
+    return plt.figure(layout="constrained", **kwargs)
+
+
+def save(fig, stem: Path) -> list[Path]:
+    """Write ``stem.png`` and ``stem.pdf`` (reproducible metadata) and close the figure."""
+    stem.parent.mkdir(parents=True, exist_ok=True)
+    out = []
+    for ext, meta in (("png", PNG_METADATA), ("pdf", PDF_METADATA)):
+        path = stem.with_name(stem.name + f".{ext}")
+        tmp = path.with_name(path.name + ".tmp")
+        fig.savefig(tmp, format=ext, metadata=meta)
+        tmp.replace(path)
+        fig.set_layout_engine("none")  # the layout of the first file holds for the second
+        out.append(path)
+    plt.close(fig)
+    return out
+
+
+def no_data(ax, text: str) -> None:
+    """Say in the panel that there is nothing to draw (the file is still written)."""
+    ax.text(0.5, 0.5, text, ha="center", va="center", transform=ax.transAxes, wrap=True,
+            color=OKABE_ITO["vermillion"])
+
+
+def plain_log_ticks(axis) -> None:
+    """Label a logarithmic axis with plain numbers (0.05, 0.1, 0.2, 0.5, 1, 2) instead of powers of 10."""
+    from matplotlib.ticker import FuncFormatter, LogLocator, NullFormatter
+
+    axis.set_major_locator(LogLocator(base=10, subs=(1.0, 2.0, 5.0)))
+    axis.set_major_formatter(FuncFormatter(lambda v, _: f"{v:g}"))
+    axis.set_minor_formatter(NullFormatter())
