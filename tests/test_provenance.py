@@ -26,8 +26,8 @@ import pytest
 
 prov_model = pytest.importorskip("prov.model")
 
-import holoscan  # noqa: E402
-from workflow_helpers import workspace, run, snakemake_cmd  # noqa: E402
+import holoscan
+from workflow_helpers import run, snakemake_cmd, workspace
 
 CFG = {
     "scan": "pv",
@@ -151,7 +151,7 @@ def test_software_agent_carries_version_and_code_hash(scan, prov_doc):
 
 
 def test_provenance_command_is_deterministic_and_rejects_an_altered_segment(scan, tmp_path):
-    ws, root = scan
+    _, root = scan
     out = tmp_path / "p.json"
     assert holoscan_cli("provenance", str(root), "--out", str(out)).returncode == 0
     assert out.read_bytes() == (root / "provenance.json").read_bytes()
@@ -194,10 +194,11 @@ def test_summary_counts_equal_the_tables(scan):
     pts = pq.read_table(root / "points.parquet").to_pylist()
     phases = pq.read_table(root / "phases.parquet").to_pylist()
     trans = pq.read_table(root / "transitions.parquet").to_pylist()
-    blocks = dict(re.findall(r"^  (\S+) \(.*?\n((?:    .*\n)+)", text, re.M))
+    blocks = dict(re.findall(r"^  (\S+) \(.*?\n((?:    .*\n)+)", text, re.MULTILINE))
     assert set(blocks) == {m["id"] for m in CFG["models"]}
     for m, block in blocks.items():
-        status = dict((k, int(v)) for k, v in re.findall(r"([a-z ]+?) (\d+)(?:,|$)", block.splitlines()[0].split(": ", 1)[1]))
+        first_line = block.splitlines()[0].split(": ", 1)[1]
+        status = {k: int(v) for k, v in re.findall(r"([a-z ]+?) (\d+)(?:,|$)", first_line)}
         want = Counter(r["status"] for r in pts if r["model_id"] == m)
         assert {k.strip(): v for k, v in status.items() if v} == dict(want)
         phase_line = re.search(r"dominant phase: (.*)", block).group(1)

@@ -38,7 +38,6 @@ Identifiers: files are ``run:<path>`` in the namespace ``run`` =
 from __future__ import annotations
 
 import json
-from collections import defaultdict
 from datetime import datetime, timezone
 from pathlib import Path
 

@@ -34,7 +34,8 @@ def collect(results_dir) -> dict:
                                                "point_key", "start_time", "end_time"]).to_pylist()
     phases = finished.read_table(root, "phases", ["model_id", "dominant_phase"]).to_pylist()
     trans = finished.read_table(root, "transitions", ["model_id", "type", "status"]).to_pylist()
-    crit = finished.read_table(root, "critical_points", ["model_id", "T", "mu", "T_err", "mu_err", "status"]).to_pylist()
+    crit = finished.read_table(root, "critical_points",
+                               ["model_id", "T", "mu", "T_err", "mu_err", "status"]).to_pylist()
     order = list(plan["model_order"])
     grid = Counter(r[0] for r in plan["rows"])
     models = [{"model_id": m, "kind": plan["models"][m]["spec"]["kind"], "grid_points": grid[m],
@@ -79,14 +80,16 @@ def _counts(c: dict) -> str:
 
 def summary_text(s: dict) -> str:
     """The printed summary of :func:`collect`'s data."""
-    out = [f"scan '{s['scan']}': holoscan {s['package_version']}, physics code {s['code_hash']}, "
-           f"tables of {s['created']}", "models:"]
+    head = (f"scan '{s['scan']}': holoscan {s['package_version']}, physics code {s['code_hash']}, "
+            f"tables of {s['created']}")
+    out = [head, "models:"]
     statuses = [st.value for st in Status]
     for m in s["models"]:
         mid = m["model_id"]
         out.append(f"  {mid} ({m['kind']}): {m['grid_points']} grid points, {m['rows']} rows")
         st = s["by_status"][mid]
-        out.append("    status: " + ", ".join(f"{k} {st.get(k, 0)}" for k in statuses + sorted(set(st) - set(statuses))))
+        names = statuses + sorted(set(st) - set(statuses))
+        out.append("    status: " + ", ".join(f"{k} {st.get(k, 0)}" for k in names))
         out.append(f"    dominant phase: {_counts(s['by_phase'][mid])}")
         out.append(f"    transition points: {_counts(s['transitions'][mid])}")
     out.append("critical points:" if s["critical_points"] else "critical points: none")

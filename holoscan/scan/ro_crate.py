@@ -4,7 +4,8 @@ JSON-LD per RO-Crate 1.1 (https://w3id.org/ro/crate/1.1), written with plain ``j
 to the Process Run Crate profile (https://w3id.org/ro/wfrun/process/0.5): the crate root is the scan
 folder; every file the PROV record names (see :mod:`holoscan.scan.provenance`) is a ``File`` data
 entity with its path relative to the folder as ``@id``, its size (``contentSize``, bytes) and its
-SHA-256 (``sha256``, hex; a term this crate adds to its ``@context``); each PROV activity becomes a ``CreateAction`` whose ``instrument`` is the
+SHA-256 (``sha256``, hex; a term this crate adds to its ``@context``); each PROV activity becomes a
+``CreateAction`` whose ``instrument`` is the
 holoscan ``SoftwareApplication`` (with ``softwareVersion``), ``object`` the files it used,
 ``result`` the files it generated, and ``startTime``/``endTime`` the activity's times when known.
 The PROV-JSON file itself, when it lies inside the folder, is a data entity too.
