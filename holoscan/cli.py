@@ -150,7 +150,7 @@ def cmd_summary(args) -> int:
 
 
 def cmd_figures(args) -> int:
-    from .figures import write_figures
+    from .scan.figures import write_figures
 
     try:
         written = write_figures(args.results_dir)
