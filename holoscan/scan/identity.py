@@ -1,8 +1,8 @@
 """Identity of a grid point: a hash of everything that determines its numbers.
 
 ``point_key = sha256(model spec, solver settings, physics-code hash, T, mu)`` (first 20 hex digits).
-The physics-code hash covers every Python source of the holoscan package except the scan layer, the
-figures and the command-line/config readers, so any edit to a model, the equations, the engine or the
+The physics-code hash covers every Python source of the holoscan package except the scan layer and
+the command-line/config readers, so any edit to a model, the equations, the engine or the
 thermodynamics makes every point it produced stale.
 """
 from __future__ import annotations
@@ -13,8 +13,8 @@ from functools import lru_cache
 from pathlib import Path
 
 _PKG = Path(__file__).resolve().parents[1]
-#: parts of the package that do not change any number (I/O, orchestration, figures, command line)
-_NOT_PHYSICS = ("scan", "figures", "figures.py", "cli.py", "config.py", "__main__.py")
+#: parts of the package that do not change any number (I/O, orchestration, command line)
+_NOT_PHYSICS = ("scan", "cli.py", "config.py", "__main__.py")
 
 
 def physics_files(root: Path = _PKG) -> list[Path]:
