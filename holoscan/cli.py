@@ -153,7 +153,7 @@ def cmd_figures(args) -> int:
     from .scan.figures import write_figures
 
     try:
-        written = write_figures(args.results_dir)
+        written = write_figures(args.results_dir, jobs=args.jobs)
     except FileNotFoundError as exc:
         print(f"holoscan: error: {exc}", file=sys.stderr)
         return 3
@@ -224,6 +224,7 @@ def build_parser() -> argparse.ArgumentParser:
     fg = sub.add_parser("figures", help="phase diagrams, equation of state, condensate and convergence "
                         "figures (PNG, PDF) of a finished scan, under RESULTS_DIR/figures")
     fg.add_argument("results_dir", metavar="RESULTS_DIR", help="results/<scan> of a finished scan")
+    fg.add_argument("--jobs", type=int, default=1, help="worker processes drawing the figures (default 1)")
     fg.set_defaults(func=cmd_figures)
 
     pv = sub.add_parser("provenance", help="W3C PROV record (PROV-JSON) of a finished scan")

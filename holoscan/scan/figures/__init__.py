@@ -40,14 +40,15 @@ def figure_files(models: list[tuple[str, str]]) -> list[str]:
     return [f"{s}.{ext}" for s in stems for ext in FORMATS]
 
 
-def write_figures(results_dir, models: list[tuple[str, str]] | None = None) -> list[str]:
+def write_figures(results_dir, models: list[tuple[str, str]] | None = None, jobs: int = 1) -> list[str]:
     """Write every figure of the scan in ``results_dir``; returns the paths written (with the manifest).
 
-    ``models`` defaults to the models of the scan's config (stored in the points table's metadata).
+    ``models`` defaults to the models of the scan's config (stored in the points table's metadata);
+    ``jobs`` worker processes draw the figures (the output does not depend on it).
     """
     from .render import write_all
 
-    return write_all(results_dir, models)
+    return write_all(results_dir, models, jobs)
 
 
 __all__ = ["FORMATS", "MANIFEST", "figure_files", "model_figure_stems", "write_figures"]

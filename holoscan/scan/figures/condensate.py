@@ -17,7 +17,7 @@ import numpy as np
 
 from .data import ScanTables, extra_field, grid_text, model_info
 from .eos import dominant_ok, pick_mu
-from .style import OKABE_ITO, SERIES, new_figure, no_data
+from .style import OKABE_ITO, SERIES, new_figure, no_data, title
 
 FIT_FROM = 0.9
 T_MAX = 1.6  # normal points beyond this T/T_c are not drawn
@@ -49,12 +49,12 @@ def mean_field_amplitude(t, y, t_from: float = FIT_FROM) -> float | None:
 def plot_condensate(tables: ScanTables, model_id: str, kind: str) -> CondensateFigure:
     """Draw ``<O>/T_c^Delta`` against ``T/T_c`` (see the module docstring)."""
     info = model_info(tables, model_id, kind)
-    fig = new_figure(figsize=(7.6, 4.8))
+    fig = new_figure((8.4, 4.8), left=0.8, right=3.3, bottom=0.6, top=0.65)
     ax = fig.add_subplot()
     out = CondensateFigure(fig, ax)
     pts = tables.points[tables.points["model_id"] == model_id] if len(tables.points) else tables.points
     dl = f"{info.delta:g}" if info.delta is not None else r"\Delta"
-    fig.suptitle(f"{info.title}: condensate of the dominant branch, $\\Delta$ = {dl}\n{grid_text(pts)}; "
+    title(fig, f"{info.title}: condensate of the dominant branch, $\\Delta$ = {dl}\n{grid_text(pts)}; "
                  f"{info.unit_note}")
     ax.set_xlabel(r"$T/T_c(\mu)$")
     ax.set_ylabel(rf"$\langle O\rangle / T_c^{{{dl}}}$")

@@ -19,7 +19,7 @@ from matplotlib.lines import Line2D
 
 from .data import ScanTables, log_T_axis, model_info
 from .raster import nearest_raster
-from .style import BAD_MARKERS, FAILED_STATUSES, new_figure, no_data, plain_log_ticks
+from .style import BAD_MARKERS, FAILED_STATUSES, new_figure, no_data, plain_log_ticks, title
 
 FLOOR = 1e-16
 COLUMNS = (("error_estimate", "error_estimate"), ("P_mismatch", "P_mismatch"))
@@ -51,7 +51,8 @@ def per_point(points: pd.DataFrame, model_id: str) -> pd.DataFrame:
 def plot_convergence(tables: ScanTables, models: list[tuple[str, str]]) -> ConvergenceFigure:
     """Draw the convergence map of every model of the scan (see the module docstring)."""
     n = max(1, len(models))
-    fig = new_figure(figsize=(10.0, 2.8 * n + 1.2))
+    fig = new_figure((10.0, 2.8 * n + 1.6), left=0.8, right=1.45, bottom=0.9, top=1.0, wspace=0.3,
+                     hspace=0.55 if n > 1 else None)
     axes = np.atleast_2d(fig.subplots(n, 2, squeeze=False))
     out = ConvergenceFigure(fig)
     pts = tables.points
@@ -60,7 +61,7 @@ def plot_convergence(tables: ScanTables, models: list[tuple[str, str]]) -> Conve
     accept = pts["accept_error"].dropna().unique() if "accept_error" in pts else []
     vmax = max(vmax, *[float(a) for a in accept], FLOOR * 10)
     norm = LogNorm(vmin=FLOOR, vmax=vmax * 1.5)
-    fig.suptitle(f"scan '{tables.scan}': convergence of every grid point (worst branch at each point)\n"
+    title(fig, f"scan '{tables.scan}': convergence of every grid point (worst branch at each point)\n"
                  "left: error_estimate (relative change at 100x tighter tolerances); "
                  "right: P_mismatch = |P - P_check|/|P|\n"
                  f"tables from code {tables.code_hash}, holoscan {tables.package_version}")
@@ -98,7 +99,10 @@ def plot_convergence(tables: ScanTables, models: list[tuple[str, str]]) -> Conve
             ax.set_xlim(mu_e[0], mu_e[-1])
             ax.set_ylim(T_e[0], T_e[-1])
     if mesh is not None:
-        cb = fig.colorbar(mesh, ax=axes.ravel().tolist(), shrink=0.9, pad=0.01)
+        W, H = fig.get_size_inches()
+        top, bottom = axes[0, -1].get_position().y1, axes[-1, -1].get_position().y0
+        cax = fig.add_axes([1 - 1.3 / W, bottom, 0.18 / W, top - bottom])
+        cb = fig.colorbar(mesh, cax=cax)
         acc = ", ".join(f"{float(a):g}" for a in accept)
         cb.set_label(f"relative value (values <= {FLOOR:g}, exact 0 included, drawn at {FLOOR:g})"
                      + (f"\nwhite line: accept_error = {acc}" if acc else ""))
@@ -108,5 +112,5 @@ def plot_convergence(tables: ScanTables, models: list[tuple[str, str]]) -> Conve
     handles = [Line2D([], [], ls="", marker=m, ms=8, mfc=f if f != "none" else "none", mec=e, mew=1.6,
                       color=e, label=f"grid point {t} ({counts[k]} in this scan)")
                for k, (m, f, e, t) in BAD_MARKERS.items()]
-    fig.legend(handles=handles, loc="outside lower center", ncols=2, frameon=False)
+    fig.legend(handles=handles, loc="lower center", ncols=2, frameon=False)
     return out

@@ -18,7 +18,7 @@ import numpy as np
 import pandas as pd
 
 from .data import ScanTables, grid_text, model_info
-from .style import LINE_STYLES, OKABE_ITO, SERIES, new_figure, no_data
+from .style import LINE_STYLES, OKABE_ITO, SERIES, new_figure, no_data, title
 
 QUANTITIES = ("s_hat", "P_hat", "trace_anomaly", "chi2_hat", "cs2")
 
@@ -98,7 +98,7 @@ def plot_eos(tables: ScanTables, model_id: str, kind: str) -> EOSFigure:
     """Draw the reduced equation of state of one model (see the module docstring)."""
     info = model_info(tables, model_id, kind)
     d = info.d
-    fig = new_figure(figsize=(11.0, 6.6))
+    fig = new_figure((11.0, 6.6), left=0.75, right=0.15, bottom=0.55, top=0.75, wspace=0.4, hspace=0.33)
     grid = fig.subplots(2, 3)
     panels = dict(zip(QUANTITIES, grid.ravel()))
     out = EOSFigure(fig, panels)
@@ -106,7 +106,7 @@ def plot_eos(tables: ScanTables, model_id: str, kind: str) -> EOSFigure:
     legend_ax.axis("off")
     pts = tables.points[tables.points["model_id"] == model_id] if len(tables.points) else tables.points
     how = "against $\\mu/T$ (conformal: depends on $\\mu/T$ only)" if info.conformal else "against T at fixed $\\mu$"
-    fig.suptitle(f"{info.title}: equation of state of the dominant branch, {how}\n{grid_text(pts)}; {info.unit_note}")
+    title(fig, f"{info.title}: equation of state of the dominant branch, {how}\n{grid_text(pts)}; {info.unit_note}")
     rows = dominant_ok(tables, model_id)
     labels = _labels(d)
     for q, ax in panels.items():
@@ -164,6 +164,6 @@ def plot_eos(tables: ScanTables, model_id: str, kind: str) -> EOSFigure:
     panels["trace_anomaly"].axhline(0.0, color=OKABE_ITO["black"], ls="--", lw=1.0)
     handles, labs = panels["cs2"].get_legend_handles_labels()
     seen = dict(zip(labs, handles))
-    title = None if info.conformal else f"$\\mu$ [{info.unit}]; lines broken at located\nfirst-order transitions"
-    legend_ax.legend(seen.values(), seen.keys(), loc="center", frameon=False, title=title)
+    legend_title = None if info.conformal else f"$\\mu$ [{info.unit}]; lines broken at located\nfirst-order transitions"
+    legend_ax.legend(seen.values(), seen.keys(), loc="center", frameon=False, title=legend_title)
     return out

@@ -22,7 +22,7 @@ from matplotlib.patches import Patch
 from .data import ScanTables, grid_text, log_T_axis, model_info
 from .raster import nearest_raster
 from .style import (BAD_MARKERS, FAILED_STATUSES, LINE_STYLES, OKABE_ITO, PHASE_COLOURS,
-                    UNCONVERGED_STATUSES, new_figure, no_data, plain_log_ticks)
+                    UNCONVERGED_STATUSES, new_figure, no_data, plain_log_ticks, title)
 
 _EXTRA_COLOURS = ["#BFD9A6", "#C9B3E0", "#F2E08C", "#9FC5E8"]
 
@@ -103,11 +103,11 @@ def plot_phase_diagram(tables: ScanTables, model_id: str, kind: str) -> PhaseDia
     """Draw the phase diagram of one model (see the module docstring); the caller saves it."""
     info = model_info(tables, model_id, kind)
     grid = _grid_phases(tables, model_id)
-    fig = new_figure(figsize=(8.2, 5.0))
+    fig = new_figure((8.6, 5.0), left=0.8, right=3.5, bottom=0.6, top=0.6)
     ax = fig.add_subplot()
     out = PhaseDiagram(fig, ax)
     pts = tables.points[tables.points["model_id"] == model_id] if len(tables.points) else tables.points
-    ax.set_title(f"{info.title}: dominant phase and located lines\n{grid_text(pts)}; {info.unit_note}")
+    title(fig, f"{info.title}: dominant phase and located lines\n{grid_text(pts)}; {info.unit_note}")
     ax.set_xlabel(rf"chemical potential $\mu$ [{info.unit}]")
     ax.set_ylabel(f"temperature T [{info.unit}]")
     if not len(grid):

@@ -75,9 +75,21 @@ PDF_METADATA = {"CreationDate": None, "ModDate": None, "Creator": "holoscan", "P
 matplotlib.rcParams.update(RC)  # this module runs only in the figures process
 
 
-def new_figure(**kwargs):
-    """A figure with the shared style and constrained layout."""
-    return plt.figure(layout="constrained", **kwargs)
+def new_figure(figsize, left=0.8, right=0.2, bottom=0.6, top=0.8, wspace=None, hspace=None):
+    """A figure of ``figsize`` inches whose subplot area leaves these margins (inches).
+
+    A fixed layout, not matplotlib's automatic one: the automatic layouts measure every tick label
+    and took a third of the drawing time."""
+    w, h = figsize
+    fig = plt.figure(figsize=figsize)
+    fig.subplots_adjust(left=left / w, right=1 - right / w, bottom=bottom / h, top=1 - top / h,
+                        wspace=wspace, hspace=hspace)
+    return fig
+
+
+def title(fig, text: str) -> None:
+    """The figure's title, centred at the top."""
+    fig.suptitle(text, y=1 - 0.08 / fig.get_figheight(), va="top")
 
 
 def save(fig, stem: Path) -> list[Path]:
@@ -89,7 +101,6 @@ def save(fig, stem: Path) -> list[Path]:
         tmp = path.with_name(path.name + ".tmp")
         fig.savefig(tmp, format=ext, metadata=meta)
         tmp.replace(path)
-        fig.set_layout_engine("none")  # the layout of the first file holds for the second
         out.append(path)
     plt.close(fig)
     return out
