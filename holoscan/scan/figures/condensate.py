@@ -33,17 +33,18 @@ class CondensateFigure:
     amplitude: float | None = None
 
 
-def mean_field_amplitude(t, y, t_from: float = FIT_FROM) -> float | None:
-    """Least-squares ``C`` of ``y = C (1 - t)^(1/2)`` over the points ``t_from <= t < 1`` with y > 0."""
+def mean_field_amplitude(t, y, t_from: float = FIT_FROM) -> tuple[float | None, float | None]:
+    """Least-squares ``C`` of ``y = C (1 - t)^(1/2)`` over the points ``t_from <= t < 1`` with y > 0
+    (or the one such point nearest ``t = 1`` if none reaches ``t_from``), and the lowest ``t`` used."""
     t, y = np.asarray(t, float), np.asarray(y, float)
     cond = (t < 1) & (y > 0) & np.isfinite(y)
     if not cond.any():
-        return None
+        return None, None
     near = cond & (t >= t_from)
     if not near.any():
         near = cond & (t == t[cond].max())
     w = np.sqrt(1 - t[near])
-    return float(np.dot(y[near], w) / np.dot(w, w))
+    return float(np.dot(y[near], w) / np.dot(w, w)), float(t[near].min())
 
 
 def plot_condensate(tables: ScanTables, model_id: str, kind: str) -> CondensateFigure:
@@ -89,12 +90,12 @@ def plot_condensate(tables: ScanTables, model_id: str, kind: str) -> CondensateF
         no_data(ax, "no row with an onset temperature T_c > 0")
         return out
     t, y = np.concatenate(all_t), np.concatenate(all_y)
-    C = mean_field_amplitude(t, y)
+    C, t_used = mean_field_amplitude(t, y)
     out.amplitude = C
     if C is not None:
         tg = np.linspace(0.7, 1.0, 200)
         ax.plot(tg, C * np.sqrt(1 - tg), "--", color=OKABE_ITO["black"], lw=1.2,
-                label=f"guide: {C:.3g} $(1-T/T_c)^{{1/2}}$ (mean-field shape,\n amplitude fitted at $T/T_c \\geq$ {FIT_FROM})")
+                label=f"guide: {C:.3g} $(1-T/T_c)^{{1/2}}$ (mean-field shape,\n amplitude fitted at $T/T_c \\geq$ {t_used:.3g})")
     ax.axvline(1.0, color="0.5", lw=0.8, ls=":")
     ax.axhline(0.0, color="0.5", lw=0.8)
     ax.set_xlim(0, T_MAX)

@@ -81,7 +81,7 @@ def plot_convergence(tables: ScanTables, models: list[tuple[str, str]]) -> Conve
             log_T = log_T_axis(pp["T"])
             if log_T:
                 ax.set_yscale("log")
-                plain_log_ticks(ax.yaxis)
+                plain_log_ticks(ax.yaxis, float(pp["T"].min()), float(pp["T"].max()))
             mu_e, T_e, idx = nearest_raster(pp["mu"].to_numpy(float), pp["T"].to_numpy(float), log_T, n=160)
             v = np.clip(pp[col].to_numpy(float), FLOOR, None)
             img = np.where(idx >= 0, v[np.clip(idx, 0, None)], np.nan)

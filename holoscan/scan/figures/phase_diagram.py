@@ -116,7 +116,7 @@ def plot_phase_diagram(tables: ScanTables, model_id: str, kind: str) -> PhaseDia
     log_T = log_T_axis(grid["T"])
     if log_T:
         ax.set_yscale("log")
-        plain_log_ticks(ax.yaxis)
+        plain_log_ticks(ax.yaxis, float(grid["T"].min()), float(grid["T"].max()))
     handles = []
 
     names = list(dict.fromkeys(sorted(grid["phase"].astype(str), key=lambda p: (p == "none", p))))

@@ -112,10 +112,13 @@ def no_data(ax, text: str) -> None:
             color=OKABE_ITO["vermillion"])
 
 
-def plain_log_ticks(axis) -> None:
-    """Label a logarithmic axis with plain numbers (0.05, 0.1, 0.2, 0.5, 1, 2) instead of powers of 10."""
+def plain_log_ticks(axis, lo: float, hi: float) -> None:
+    """Label a logarithmic axis over ``[lo, hi]`` with plain numbers (0.05, 0.1, 0.2, 0.5, 1, 2) instead
+    of powers of 10; over more than 4 decades matplotlib's own ticks are kept."""
     from matplotlib.ticker import FuncFormatter, LogLocator, NullFormatter
 
+    if not (lo > 0 and hi / lo <= 1e4):
+        return
     axis.set_major_locator(LogLocator(base=10, subs=(1.0, 2.0, 5.0)))
     axis.set_major_formatter(FuncFormatter(lambda v, _: f"{v:g}"))
     axis.set_minor_formatter(NullFormatter())
