@@ -130,16 +130,18 @@ def plot_eos(tables: ScanTables, model_id: str, kind: str) -> EOSFigure:
         tr = tr[(tr["model_id"] == model_id) & (tr["status"] == "ok")] if len(tr) else tr
         x_lines = sorted(set(np.round(tr["mu_over_T"].dropna().astype(float), 9))) if len(tr) else []
         xb, yb = _break_at(xs, ys, [x for x in x_lines if x not in set(np.round(xs, 9))])
+        x_all = (rows["mu"] / rows["T"]).to_numpy(float)
         for q, ax in panels.items():
-            ax.plot(xb, yb[q], "-", color=SERIES[0], lw=1.4, marker="o" if len(xs) <= 80 else None, ms=3,
-                    label=f"dominant branch ({len(rows)} grid points)")
+            ax.plot(xb, yb[q], "-", color=SERIES[0], lw=1.4, label=f"dominant branch ({len(rows)} grid points)")
+            if len(rows) <= 600:  # every grid point, so a spread at equal mu/T would show
+                ax.plot(x_all, rows[q].to_numpy(float), "o", color=SERIES[0], ms=3, mfc="none", mew=0.8)
         for typ, (colour, ls, lw, text) in LINE_STYLES.items():
             sel = tr[tr["type"] == typ]["mu_over_T"].dropna() if len(tr) else []
             for i, xv in enumerate(np.unique(np.round(np.asarray(sel, float), 9))):
                 if xs.min() <= xv <= xs.max():
                     for ax in panels.values():
                         ax.axvline(xv, color=colour, ls=ls, lw=1.0,
-                                   label=f"{text}: $|\\mu/T|$ = {abs(xv):.5g}" if i == 0 else None)
+                                   label=f"{text}:\n$|\\mu/T|$ = {abs(xv):.5g}" if i == 0 else None)
     else:
         out.x_name = "T"
         for i, mu in enumerate(pick_mu(rows["mu"])):
