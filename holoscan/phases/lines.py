@@ -33,8 +33,19 @@ CURVE_NODES = 41
 T_MARGIN = 1.3
 
 
+@dataclass(frozen=True, kw_only=True)
+class _Outcome:
+    """What every located record carries besides its coordinates: status, reason, cost, extras."""
+
+    status: str = "ok"
+    message: str = ""
+    shots: int = 0
+    wall_time: float = 0.0
+    extra: dict = field(default_factory=dict)
+
+
 @dataclass(frozen=True)
-class LinePoint:
+class LinePoint(_Outcome):
     """One located point on a transition line. ``T_err``/``mu_err``: absolute uncertainties;
     ``latent_heat = T (s_high - s_low)`` [E^d], ``rho_jump = rho_high - rho_low`` [E^(d-1)], where
     high/low refer to the high- and low-entropy sides of a first-order point."""
@@ -50,11 +61,6 @@ class LinePoint:
     rho_jump: float = math.nan
     s_high: float = math.nan
     s_low: float = math.nan
-    status: str = "ok"
-    message: str = ""
-    shots: int = 0
-    wall_time: float = 0.0
-    extra: dict = field(default_factory=dict)
 
     def to_dict(self) -> dict:
         out = asdict(self)
@@ -63,7 +69,7 @@ class LinePoint:
 
 
 @dataclass(frozen=True)
-class CriticalPoint:
+class CriticalPoint(_Outcome):
     """Where a first-order line ends (latent heat and Omega gap -> 0, chi2 -> infinity)."""
 
     model_id: str
@@ -72,11 +78,6 @@ class CriticalPoint:
     mu: float
     T_err: float
     mu_err: float
-    status: str = "ok"
-    message: str = ""
-    shots: int = 0
-    wall_time: float = 0.0
-    extra: dict = field(default_factory=dict)
 
     def to_dict(self) -> dict:
         return asdict(self)
