@@ -14,9 +14,7 @@ References:
 The demo dilaton model is our own invention (see README); its transition points are checked against
 independent solves, never against stored numbers.
 """
-import math
 
-import numpy as np
 import pytest
 
 from holoscan import SolverSettings, Status, model_from_block, solve_point

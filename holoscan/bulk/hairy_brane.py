@@ -206,7 +206,6 @@ class HairyBrane:
         d, k, e2, k2 = self.d, self.k, self.e_sq, self.kappa_sq
         dy = self.rhs_outer(y)
         t, chi, gh = y[_T], y[6], y[_GH]
-        r = np.exp(t)
         G = gh * np.exp(-k * t)
         # r^{d+1} G' = r^{d-k} (dGhat/dt - k Ghat)
         rG = np.exp((d - k) * t) * (dy[_GH] - k * gh)

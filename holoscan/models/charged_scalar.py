@@ -187,7 +187,7 @@ class ChargedScalarModel:
         """Closed form of the normal brane: (s, rho, P, P_TT, P_Tmu, P_mumu)."""
         if not self.probe:
             r = self.normal_model().closed_form(T, mu)
-            d, k2, e2, g2 = self.d, self.kappa_sq, self.e_sq, self.normal_model().gamma_sq
+            d, k2, g2 = self.d, self.kappa_sq, self.normal_model().gamma_sq
             rh = r.extra["r_h"]
             den = 2 * d * rh - 4 * math.pi * T
             r_T, r_mu = 4 * math.pi * rh / den, 2 * (d - 2) * mu / (g2 * den)

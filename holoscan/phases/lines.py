@@ -119,7 +119,6 @@ def _failed(model_id, type_, method, T, mu, exc, t0, cnt=None) -> LinePoint:
 
 
 def _emd_sourced(model, settings, Ts, mus):
-    from scipy.optimize import brentq
 
     from ..models.emd import _shooter
     from . import fixed_mu as fm
