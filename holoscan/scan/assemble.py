@@ -2,7 +2,6 @@
 from __future__ import annotations
 
 import json
-import os
 import socket
 from collections import Counter
 from datetime import datetime, timezone
@@ -15,7 +14,7 @@ import pyarrow.parquet as pq
 from .. import __version__
 from ..result import Status
 from .sizing import measured, read_costs, write_costs
-from .store import atomic_write_text, seal_path, sha256_file
+from .store import atomic_write_table, atomic_write_text, seal_path, sha256_file
 from .tables import SCHEMA_VERSION, schema
 
 
@@ -58,10 +57,7 @@ def assemble(table_file, out_table, summary_json, summary_txt=None) -> dict:
         "plan": Path(table_file).name,
     }
     table = table.cast(schema(meta))
-    out = Path(out_table)
-    tmp = out.with_name(f".{out.name}.tmp-{os.getpid()}")
-    pq.write_table(table, tmp)
-    os.replace(tmp, out)
+    atomic_write_table(table, out_table)
     keys = {m: d["cost_key"] for m, d in doc["models"].items() if "cost_key" in d}
     if keys:  # the per-point cost each model showed, for sizing the chunks of later plans
         costs = read_costs(root)

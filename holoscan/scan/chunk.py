@@ -25,15 +25,20 @@ class StaleManifest(RuntimeError):
     pass
 
 
-def _now() -> str:
+def utc_now() -> str:
     return datetime.now(timezone.utc).isoformat(timespec="microseconds")
+
+
+def check_code(manifest: dict) -> None:
+    """Raise StaleManifest when the manifest was planned with other physics code than this one."""
+    if manifest["code_hash"] != code_hash():
+        raise StaleManifest(f"manifest made with physics code {manifest['code_hash']}, this is {code_hash()}: "
+                            "the code changed after planning; run the workflow again to re-plan")
 
 
 def solve_manifest(manifest: dict, *, log_file: str = "", log=print) -> list[dict]:
     """Rows (dicts in the table schema) for every point of ``manifest``."""
-    if manifest["code_hash"] != code_hash():
-        raise StaleManifest(f"manifest made with physics code {manifest['code_hash']}, this is {code_hash()}: "
-                            "the code changed after planning; run the workflow again to re-plan")
+    check_code(manifest)
     host = socket.gethostname()
     models = {mid: (model_from_block(m["spec"], f"manifest.models.{mid}"), SolverSettings(**m["solver"]))
               for mid, m in manifest["models"].items()}
@@ -42,7 +47,7 @@ def solve_manifest(manifest: dict, *, log_file: str = "", log=print) -> list[dic
             "host": host, "log_file": log_file}
     for mid, T, mu, key in manifest["points"]:
         model, settings = models[mid]
-        start = _now()
+        start = utc_now()
         t0 = time.perf_counter()
         try:
             results = [r.to_dict() for r in solve_point(model, T, mu, settings)]
@@ -51,7 +56,7 @@ def solve_manifest(manifest: dict, *, log_file: str = "", log=print) -> list[dic
                         "mu": mu, "status": Status.FAILED.value, "method": settings.method,
                         "message": f"internal error: {type(exc).__name__}: {exc}", "wall_time": time.perf_counter() - t0}]
             log(traceback.format_exc())
-        end = _now()
+        end = utc_now()
         for r in results:
             r["extra"] = json.dumps(r.get("extra", {}), sort_keys=True, default=str)
             r.update(base, point_key=key, start_time=start, end_time=end, accept_error=settings.accept_error)

@@ -4,33 +4,26 @@ from __future__ import annotations
 import json
 import socket
 import traceback
-from datetime import datetime, timezone
 from pathlib import Path
 
 from .. import __version__
 from ..models import model_from_block
 from ..phases.lines import CriticalPoint, LinePoint, locate
 from ..settings import SolverSettings
-from .chunk import StaleManifest
-from .identity import code_hash
-from .phase_tables import CRITICAL_COLUMNS, TRANSITION_COLUMNS, write_atomic
+from .chunk import check_code, utc_now
+from .phase_tables import CRITICAL_COLUMNS, TRANSITION_COLUMNS
+from .store import atomic_write_table
 from .tables import table_from_rows
-
-
-def _now() -> str:
-    return datetime.now(timezone.utc).isoformat(timespec="microseconds")
 
 
 def run_lines(manifest_path, out_lines, out_critical, log_file: str = "", log=print) -> tuple[int, int]:
     """Locate the lines of the manifest's model; write both tables (temporary name, then rename).
     Returns (line rows, critical-point rows)."""
     man = json.loads(Path(manifest_path).read_text())
-    if man["code_hash"] != code_hash():
-        raise StaleManifest(f"manifest made with physics code {man['code_hash']}, this is {code_hash()}: "
-                            "the code changed after planning; run the workflow again to re-plan")
+    check_code(man)
     model = model_from_block(man["spec"], f"manifest.{man['model_id']}")
     settings = SolverSettings(**man["solver"])
-    start = _now()
+    start = utc_now()
     try:
         rows, cps = locate(model, settings, [tuple(p) for p in man["points"]])
     except Exception as exc:  # a bug must not pass silently, nor leave nothing: record it
@@ -40,12 +33,12 @@ def run_lines(manifest_path, out_lines, out_critical, log_file: str = "", log=pr
         cps = [CriticalPoint(model.id, "", float("nan"), float("nan"), float("nan"), float("nan"), status="failed",
                              message=f"internal error: {type(exc).__name__}: {exc}")] if model.kind == "emd" else []
     base = {"kind": model.kind, "lines_key": man["key"], "code_hash": man["code_hash"], "package_version": __version__,
-            "host": socket.gethostname(), "start_time": start, "end_time": _now(), "log_file": log_file}
+            "host": socket.gethostname(), "start_time": start, "end_time": utc_now(), "log_file": log_file}
     out_r = [{**r.to_dict(), **base} for r in rows]
     out_c = [{**c.to_dict(), **base} for c in cps]
     for r in out_r + out_c:
         r["extra"] = json.dumps(r.get("extra", {}), sort_keys=True, default=float)
         log(f"{r['model_id']} {r.get('type', 'critical point')}: T={r['T']!r} mu={r['mu']!r} {r['status']} {r['message']}")
-    write_atomic(table_from_rows(out_r, TRANSITION_COLUMNS), out_lines)
-    write_atomic(table_from_rows(out_c, CRITICAL_COLUMNS), out_critical)
+    atomic_write_table(table_from_rows(out_r, TRANSITION_COLUMNS), out_lines)
+    atomic_write_table(table_from_rows(out_c, CRITICAL_COLUMNS), out_critical)
     return len(out_r), len(out_c)

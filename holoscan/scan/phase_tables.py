@@ -6,13 +6,12 @@ Units as in the points table: T, mu [E]; latent heat [E^d]; s, rho jumps [E^(d-1
 from __future__ import annotations
 
 import json
-import os
 from collections import Counter, defaultdict
-from pathlib import Path
 
 import pyarrow as pa
 import pyarrow.parquet as pq
 
+from .store import atomic_write_table
 from .tables import F64, I64, STR, file_metadata, table_from_rows
 
 LSTR, LF64 = pa.list_(STR), pa.list_(F64)
@@ -92,16 +91,6 @@ PHASE_PHYSICS = ["model_id", "T", "mu", "n_branches", "dominant_branch", "domina
                  "branch_Omega", "branch_flag", "status"]
 
 
-def write_atomic(table: pa.Table, path) -> None:
-    out = Path(path)
-    out.parent.mkdir(parents=True, exist_ok=True)
-    tmp = out.with_name(f".{out.name}.tmp-{os.getpid()}")
-    pq.write_table(table, tmp)
-    with open(tmp, "rb+") as fh:
-        os.fsync(fh.fileno())
-    os.replace(tmp, out)
-
-
 def phases_from_points(points: pa.Table) -> list[dict]:
     """One row per (model, T, mu) of a points table, from its branch rows' phase flags."""
     groups = defaultdict(list)
@@ -147,9 +136,9 @@ def build_phase_tables(points_file, line_files, critical_files, out_phases, out_
                      r["T"] if r["T"] is not None else 0.0)
     lines.sort(key=key)
     crit.sort(key=key)
-    write_atomic(table_from_rows(phases, PHASE_COLUMNS, meta), out_phases)
-    write_atomic(table_from_rows(lines, TRANSITION_COLUMNS, meta), out_transitions)
-    write_atomic(table_from_rows(crit, CRITICAL_COLUMNS, meta), out_critical)
+    atomic_write_table(table_from_rows(phases, PHASE_COLUMNS, meta), out_phases)
+    atomic_write_table(table_from_rows(lines, TRANSITION_COLUMNS, meta), out_transitions)
+    atomic_write_table(table_from_rows(crit, CRITICAL_COLUMNS, meta), out_critical)
     summary = {}
     for m in order:
         summary[m] = {

@@ -93,7 +93,7 @@ def make_plan(cfg: ScanConfig, results_dir="results", *, write: bool = True, log
     chash = config_hash(cfg.canonical_json())
     index = index_store(root / "segments", quarantine=write)
     models, table, missing, per_model, lines = {}, [], [], [], []
-    costs, n_costs, sizing, cost_of = read_costs(root), None, [], {}
+    costs, sizing, cost_of = read_costs(root), [], {}
     n_costs = len(costs)
     for mp in cfg.models:
         spec, solver = mp.model.spec(), mp.settings.canonical()

@@ -42,6 +42,19 @@ def atomic_write_text(path: Path, text: str, durable: bool = True) -> None:
     atomic_write_bytes(path, text.encode(), durable)
 
 
+def atomic_write_table(table, path: Path) -> None:
+    """Write an Arrow table as Parquet to a temporary name in the same folder, fsync, then rename."""
+    import pyarrow.parquet as pq
+
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    tmp = path.with_name(f".{path.name}.tmp-{os.getpid()}")
+    pq.write_table(table, tmp)
+    with open(tmp, "rb+") as fh:
+        os.fsync(fh.fileno())
+    os.replace(tmp, path)
+
+
 def seal_path(segment: Path) -> Path:
     return Path(segment).with_suffix(".json")
 
