@@ -43,25 +43,29 @@ def _physical(o, d, D):
         return np.column_stack([T, o[:, 0] * T, o[:, 2] * T ** (d - 1), o[:, 3] * T ** (d - 1)])
 
 
-def coarse_curve(sh, mu: float) -> tuple[np.ndarray, np.ndarray]:
-    """``(l, u)`` of the fixed-``mu`` curve at the coarse scan's ``phi0`` nodes (first root in ``u``
-    of ``mu(phi0, u) = mu`` along the coarse ``u`` nodes, linear interpolation); nodes without a
-    root are left out."""
+def coarse_curve(sh, mu: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """``(l, u, T)`` of the fixed-``mu`` curve at the coarse scan's ``phi0`` nodes (first root in ``u``
+    of ``mu(phi0, u) = mu`` along the coarse ``u`` nodes, and ``T`` there, by linear interpolation);
+    nodes without a root are left out."""
     g = sh.grid()
     d, D = sh.brane.d, sh.brane.delta
-    ls, us = [], []
+    ls, us, Ts = [], [], []
     for i, p in enumerate(g.phi0):
+        X = _physical(g.obs[i], d, D)
         if mu == 0.0:
             ls.append(math.log(p))
             us.append(0.0)
+            Ts.append(X[0, 0])
             continue
-        m = _physical(g.obs[i], d, D)[:, 1] - mu
+        m = X[:, 1] - mu
         for k in range(len(g.u) - 1):
             if np.isfinite(m[k]) and np.isfinite(m[k + 1]) and m[k] <= 0.0 < m[k + 1]:
+                t = -m[k] / (m[k + 1] - m[k])
                 ls.append(math.log(p))
                 us.append(g.u[k] - m[k] * (g.u[k + 1] - g.u[k]) / (m[k + 1] - m[k]))
+                Ts.append(X[k, 0] + t * (X[k + 1, 0] - X[k, 0]))
                 break
-    return np.array(ls), np.array(us)
+    return np.array(ls), np.array(us), np.array(Ts)
 
 
 def newton_u(sh, P: np.ndarray, U: np.ndarray, residual, ss: ShootSettings, cnt: Counters,
@@ -215,7 +219,7 @@ def sample(sh, mu: float, la: float, lb: float, n: int, ss: ShootSettings, cnt: 
         raise ValueError("n must be odd (the coarse subset shares the nodes)")
     z = lobatto(n)
     L = la + 0.5 * (lb - la) * (z + 1.0)
-    lc, uc = coarse_curve(sh, mu)
+    lc, uc, _ = coarse_curve(sh, mu)
     if len(lc) < 2:
         raise ArithmeticError(f"no brane at mu = {mu:.6g} in the coarse scan")
     U0 = np.interp(L, lc, uc)
@@ -232,20 +236,9 @@ def sample(sh, mu: float, la: float, lb: float, n: int, ss: ShootSettings, cnt: 
 def window(sh, mu: float, T_lo: float, T_hi: float) -> tuple[float, float] | None:
     """Interval in ``l = log phi0`` whose coarse-curve temperatures span ``[T_lo, T_hi]`` (one coarse
     node of margin on each side), or None when the coarse curve does not reach that range."""
-    d, D = sh.brane.d, sh.brane.delta
-    lc, uc = coarse_curve(sh, mu)
+    lc, _, Ts = coarse_curve(sh, mu)
     if len(lc) < 3:
         return None
-    obs = sh.grid().obs
-    g = sh.grid()
-    Ts = []
-    for l_, u_ in zip(lc, uc):
-        i = int(np.argmin(np.abs(np.log(g.phi0) - l_)))
-        k = min(int(np.searchsorted(g.u, u_, side="right")) - 1, len(g.u) - 2)
-        t = (u_ - g.u[k]) / (g.u[k + 1] - g.u[k])
-        a, b = _physical(obs[i, k], d, D)[0, 0], _physical(obs[i, k + 1], d, D)[0, 0]
-        Ts.append(a + t * (b - a))
-    Ts = np.array(Ts)
     inside = np.flatnonzero((Ts >= T_lo) & (Ts <= T_hi))
     if len(inside) == 0:
         return None
