@@ -71,21 +71,23 @@ class EMDShooter:
         return o if np.all(np.isfinite(o)) else None
 
     def observe_many(self, Q, ss: ShootSettings, cnt: Counters | None = None, record: bool = False,
-                     brane: ScalarBrane | None = None) -> np.ndarray:
+                     brane: ScalarBrane | None = None, detail: dict | None = None) -> np.ndarray:
         """Observables ``(x, j, s_hat, rho_hat)`` at many horizon data ``Q`` (shape (B, 2)) in one
         batched integration (rows of NaN where a shot failed). The integration variable is the warp
-        factor ``A`` itself, so every column ends exactly at ``A_end``."""
+        factor ``A`` itself, so every column ends exactly at ``A_end``. ``detail`` (a dict) receives
+        per-shot arrays ``residual`` (field-equation residual and frame mismatch, when ``record``),
+        ``nfev`` and ``nsteps``."""
         brane = brane or self.brane
         Q = np.atleast_2d(np.asarray(Q, dtype=float))
         nb = len(Q)
-        y0 = np.full((8, nb), np.nan)
-        for b, (p, w) in enumerate(Q):
-            try:
-                y0[:, b] = brane.start_state(HorizonData(p, w * self.Phi1_max(p)), ss.horizon_offset)
-            except (ValueError, OverflowError, ZeroDivisionError):
-                pass
+        with np.errstate(all="ignore"):
+            Pm = np.sqrt(np.maximum(-2.0 * np.asarray(brane.V.derivs(Q[:, 0])[0], float)
+                                    / np.asarray(brane.f.derivs(Q[:, 0])[0], float), 0.0))
+        y0 = brane.start_states(Q[:, 0], Q[:, 1] * Pm, ss.horizon_offset)
         good = np.all(np.isfinite(y0), axis=0)
         out = np.full((nb, 4), np.nan)
+        if detail is not None:
+            detail.update(residual=np.full(nb, np.nan), nfev=np.zeros(nb, np.int64), nsteps=np.zeros(nb, np.int64))
         if not np.any(good):
             return out
         yg = y0[:, good]
@@ -99,15 +101,18 @@ class EMDShooter:
             cnt.nsteps += int(res.nsteps.sum())
             cnt.shots += int(good.sum())
         cols = np.flatnonzero(good)
-        for k, b in enumerate(cols):
-            if not res.ok[k]:
-                continue
-            o = brane.boundary_dimensionless(res.y[:, k], self.kappa_sq)
-            row = np.array([o["x"], o["j"], o["s_hat"], o["rho_hat"]])
-            if np.all(np.isfinite(row)):
-                out[b] = row
-                if record and cnt is not None:
-                    cnt.residual = max(cnt.residual, float(res.residual[k]), o["frame_mismatch"])
+        if detail is not None:
+            detail["nfev"][cols], detail["nsteps"][cols] = res.nfev, res.nsteps
+        o = brane.boundary_dimensionless_many(res.y, self.kappa_sq)
+        rows = np.column_stack([o["x"], o["j"], o["s_hat"], o["rho_hat"]])
+        fine = res.ok & np.all(np.isfinite(rows), axis=1)
+        out[cols[fine]] = rows[fine]
+        if record:
+            r = np.maximum(res.residual, o["frame_mismatch"])
+            if cnt is not None and np.any(fine):
+                cnt.residual = max(cnt.residual, float(np.max(r[fine])))
+            if detail is not None:
+                detail["residual"][cols[fine]] = r[fine]
         return out
 
     def grid(self) -> Grid:

@@ -778,8 +778,8 @@ class ParsedCoupling:
             near = np.abs(x) < self.SERIES_RADIUS
             if np.any(near):
                 with np.errstate(all="ignore"):
-                    d1 = _blend(near, _horner(self._c1, x), d1)
-                    d2 = _blend(near, _horner(self._c2, x), d2)
+                    d1 = _blend(near, x, self._c1, d1)
+                    d2 = _blend(near, x, self._c2, d2)
         return v, d1, d2
 
     def derivs1(self, phi):
@@ -790,7 +790,7 @@ class ParsedCoupling:
             near = np.abs(x) < self.SERIES_RADIUS
             if np.any(near):
                 with np.errstate(all="ignore"):
-                    d1 = _blend(near, _horner(self._c1, x), d1)
+                    d1 = _blend(near, x, self._c1, d1)
         return v, d1
 
     def __eq__(self, other):
@@ -806,9 +806,13 @@ class ParsedCoupling:
         return f"ParsedCoupling({self.text!r}, {self.key!r})"
 
 
-def _blend(near, series, direct):
-    out = np.where(near, series, direct)
-    return float(out) if isinstance(direct, float) else out
+def _blend(near, x, coeffs, direct):
+    """``direct`` with the entries where ``near`` replaced by the series (evaluated only there)."""
+    if isinstance(direct, float) or np.ndim(direct) == 0:
+        return float(_horner(coeffs, x))
+    out = np.array(direct, dtype=float)
+    out[near] = _horner(coeffs, x[near])
+    return out
 
 
 def _horner(coeffs, x):

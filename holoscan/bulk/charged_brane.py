@@ -170,6 +170,29 @@ class ChargedBrane:
             p1 + p2 * e,
         ])
 
+    def start_states(self, phi0, Phi1, eps: float) -> np.ndarray:
+        """:meth:`start_state` for arrays of horizon data at once: states (8, B); NaN columns where
+        ``A'(0) <= 0`` (no asymptotically AdS brane)."""
+        d = self.d
+        phi0, P1 = np.asarray(phi0, dtype=float), np.asarray(Phi1, dtype=float)
+        with np.errstate(all="ignore"):
+            V, Vp, Vpp = (np.asarray(x, dtype=float) for x in self.V.derivs(phi0))
+            f, fp, fpp = (np.asarray(x, dtype=float) for x in self.f.derivs(phi0))
+            a1 = -(V + 0.5 * f * P1**2) / (d - 1)
+            p1 = Vp - 0.5 * fp * P1**2
+            a2 = -p1**2 / (2 * (d - 1))
+            h2 = -d * a1 + f * P1**2
+            P2 = -((d - 2) * a1 + fp * p1 / f) * P1
+            S1 = Vpp * p1 - 0.5 * fpp * p1 * P1**2 + fp * a1 * P1**2 - fp * P1 * P2
+            p2 = (S1 - (d * a1 + h2) * p1) / 2.0
+            e = eps
+            y = np.array([
+                a1 * e + 0.5 * a2 * e * e, a1 + a2 * e, e + 0.5 * h2 * e * e + 0 * a1, 1.0 + h2 * e,
+                P1 * e + 0.5 * P2 * e * e, P1 + P2 * e, phi0 + p1 * e + 0.5 * p2 * e * e, p1 + p2 * e,
+            ])
+        y[:, ~(a1 > 0.0)] = np.nan
+        return y
+
     def end_point(self, hd: HorizonData) -> float:
         return self.A_end / self.horizon_slope(hd)
 

@@ -24,6 +24,7 @@ from __future__ import annotations
 
 import math
 
+import numpy as np
 
 from .charged_brane import ChargedBrane
 
@@ -53,6 +54,32 @@ class ScalarBrane(ChargedBrane):
             self.c2 = V3 / (2.0 * k * (2 * d - 3 * self.delta)) if V3 else 0.0
             default_end = max(10.0, 18.0 / k)
         self.A_end = float(A_end) if A_end is not None else default_end
+
+    def boundary_dimensionless_many(self, Y, kappa_sq: float) -> dict:
+        """:meth:`boundary_dimensionless` for end states (8, B) at once (arrays; NaN where invalid)."""
+        d, D = self.d, self.delta
+        A, dA, h, dh, Ph, dPh, ph, dph = np.asarray(Y, dtype=float)
+        with np.errstate(all="ignore"):
+            f = np.asarray(self.f.derivs(ph)[0], dtype=float)
+            h_inf = h + dh / (d * dA)
+            valid = (h_inf > 0) & (dA > 0) & np.isfinite(h_inf)
+            sq = 4.0 * np.pi * np.sqrt(np.where(valid, h_inf, np.nan))
+            G = f * np.exp((d - 2) * A) * dPh
+            if abs(D - d / 2) < 1e-12:
+                a = (dph + 0.5 * d * dA * ph) * np.exp(0.5 * d * A) / dA
+            else:
+                k = d - D
+                a = (D * ph + dph / dA) * np.exp(k * A) / (2 * D - d)
+                if self.c2:
+                    a = a - self.c2 * a * a * (D - 2 * k) / (2 * D - d) * np.exp(-k * A)
+            return {
+                "x": 4.0 * np.pi * (Ph + dPh / ((d - 2) * dA)) + 0 * sq,
+                "j": a * sq ** (d - D),
+                "s_hat": 2.0 * np.pi / kappa_sq * sq ** (d - 1),
+                "rho_hat": G / (2.0 * kappa_sq) * sq ** (d - 1),
+                "h_inf": h_inf,
+                "frame_mismatch": np.abs(dA * np.sqrt(np.where(valid, h_inf, np.nan)) - 1.0),
+            }
 
     def boundary_dimensionless(self, y_end, kappa_sq: float) -> dict:
         """``x = mu/T``, ``j``, ``s_hat = s/T^(d-1)``, ``rho_hat = rho/T^(d-1)`` (see module docstring)."""

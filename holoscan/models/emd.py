@@ -33,6 +33,7 @@ from .. import validate as v
 from ..bulk.charged_brane import ChargedBrane
 from ..bulk.scalar_brane import ScalarBrane
 from ..conformal import solve_unsourced
+from ..emd_batch import batch_solver
 from ..emd_pressure import ZeroDensityPressure, lobatto, path_integral
 from ..emd_solver import Counters, EMDShooter, find_branches
 from ..errors import InputError
@@ -62,8 +63,8 @@ class EMDModel:
     energy_scale: float = 1.0
 
     kind = "emd"
-    methods = ("shooting",)
-    default_method = "shooting"
+    methods = ("atlas", "shooting")
+    default_method = "atlas"
     KEYS = ("id", "kind", "kappa_sq", "V", "f", "source", "energy_scale")
 
     @classmethod
@@ -126,9 +127,21 @@ class EMDModel:
         if self.scalar_free():
             brane = ChargedBrane(D_BOUNDARY, V, f)
             return [solve_unsourced(brane, self.kappa_sq, T, mu, settings, model_id=self.id, kind=self.kind)]
+        if settings.method == "atlas":
+            return self.solve_many([(T, mu)], settings)[0]
         if self.source:
             return solve_sourced(self, _shooter(self, V, f), T, mu, settings)
         return solve_family(self, _shooter(self, V, f), T, mu, settings)
+
+    def solve_many(self, targets, settings: SolverSettings = SolverSettings()) -> list[list[PointResult]]:
+        """Every brane at each target ``(T, mu)``: one list of results per target. Method ``atlas``
+        solves them together (:mod:`holoscan.emd_batch`); others one by one."""
+        if settings.method != "atlas" or self.scalar_free():
+            return [self.solve(T, mu, settings) for T, mu in targets]
+        V, f = self.couplings()
+        sh = _shooter(self, V, f)
+        T, mu = (np.array([t[k] for t in targets], dtype=float) for k in (0, 1))
+        return batch_solver(self, sh, settings).solve(T, mu)
 
 
 _SHOOTERS: dict = {}

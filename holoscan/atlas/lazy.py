@@ -1,0 +1,143 @@
+"""A patch atlas built on demand, with a canonical subdivision.
+
+The domain is cut into a fixed grid of root cells; a cell is sampled on its Chebyshev nodes the
+first time a point inside it is needed, and split in half along every unresolved direction (see
+:mod:`holoscan.atlas.build` for the resolution test), recursively. Whether a cell is split depends
+only on its own samples, so every cell, and so every value the atlas returns at a point, is the same
+whichever points were asked for first, in whichever process: results stay a function of the model
+and the solver settings alone.
+"""
+from __future__ import annotations
+
+import numpy as np
+
+from .build import HOLE, RESOLVED, ROUGH, _tails, noise_plateau
+from .cheb import PatchSet, fit, nodes
+
+
+class LazyAtlas:
+    """Atlas of ``sample`` (see :func:`holoscan.atlas.build.build`) on ``domain``, built on demand."""
+
+    def __init__(self, sample, domain, *, n: int, tol: float, absolute, initial=(8, 4),
+                 min_width=(1e-2, 2e-3)):
+        self.sample, self.n, self.tol = sample, n, tol
+        self.domain = tuple(float(x) for x in domain)
+        self.absolute = np.asarray(absolute, dtype=bool)
+        self.initial, self.min_width = initial, min_width
+        self.cells: dict = {}      # key -> (bounds, split or None, leaf index or -1)
+        self.leaf_bounds, self.leaf_coeffs, self.leaf_flags, self.leaf_tails = [], [], [], []
+        self.samples = 0
+        self._ps = None
+
+    # -- cells ----------------------------------------------------------------------------------------
+    def _root_keys(self, x0, x1):
+        a0, b0, a1, b1 = self.domain
+        i = np.clip(((x0 - a0) / (b0 - a0) * self.initial[0]).astype(np.int64), 0, self.initial[0] - 1)
+        k = np.clip(((x1 - a1) / (b1 - a1) * self.initial[1]).astype(np.int64), 0, self.initial[1] - 1)
+        return [("r", int(a), int(b)) for a, b in zip(i, k)]
+
+    def _root_bounds(self, key):
+        a0, b0, a1, b1 = self.domain
+        _, i, k = key
+        w0, w1 = (b0 - a0) / self.initial[0], (b1 - a1) / self.initial[1]
+        return (a0 + i * w0, a0 + (i + 1) * w0, a1 + k * w1, a1 + (k + 1) * w1)
+
+    def _build(self, keys_bounds):
+        """Sample and classify new cells (one batched call)."""
+        n, z = self.n, nodes(self.n)
+        B = np.array([b for _, b in keys_bounds])
+        X0 = 0.5 * (B[:, 1] - B[:, 0])[:, None] * (z[None, :] + 1.0) + B[:, 0][:, None]
+        X1 = 0.5 * (B[:, 3] - B[:, 2])[:, None] * (z[None, :] + 1.0) + B[:, 2][:, None]
+        G0 = np.repeat(X0[:, :, None], n, axis=2).reshape(len(B), -1)
+        G1 = np.repeat(X1[:, None, :], n, axis=1).reshape(len(B), -1)
+        vals = self.sample(G0.ravel(), G1.ravel())
+        self.samples += G0.size
+        vals = vals.reshape(len(B), n, n, -1).transpose(0, 3, 1, 2)
+        for (key, (lo0, hi0, lo1, hi1)), v in zip(keys_bounds, vals):
+            can0 = (hi0 - lo0) / 2 >= self.min_width[0]
+            can1 = (hi1 - lo1) / 2 >= self.min_width[1]
+            if not np.all(np.isfinite(v)):
+                split, c, tail, flag = (can0, can1), np.full_like(v, np.nan), np.inf, HOLE
+            else:
+                c = fit(v)
+                t0, t1 = _tails(c, v, self.absolute)
+                need0, need1 = bool(np.max(t0) > self.tol), bool(np.max(t1) > self.tol)
+                split = (need0 and can0, need1 and can1)
+                if (need0 or need1) and noise_plateau(c, v, self.absolute):
+                    split = (False, False)
+                tail = float(max(np.max(t0), np.max(t1)))
+                flag = RESOLVED if not (need0 or need1) else ROUGH
+            if split[0] or split[1]:
+                self.cells[key] = ((lo0, hi0, lo1, hi1), split, -1)
+            else:
+                self.cells[key] = ((lo0, hi0, lo1, hi1), None, len(self.leaf_bounds))
+                self.leaf_bounds.append((lo0, hi0, lo1, hi1))
+                self.leaf_coeffs.append(c)
+                self.leaf_flags.append(flag)
+                self.leaf_tails.append(tail)
+                self._ps = None
+
+    @staticmethod
+    def _child(key, bounds, split, x0, x1):
+        lo0, hi0, lo1, hi1 = bounds
+        m0, m1 = 0.5 * (lo0 + hi0), 0.5 * (lo1 + hi1)
+        c0 = int(x0 >= m0) if split[0] else 0
+        c1 = int(x1 >= m1) if split[1] else 0
+        nb = ((m0, hi0) if c0 else (lo0, m0)) if split[0] else (lo0, hi0)
+        nb1 = ((m1, hi1) if c1 else (lo1, m1)) if split[1] else (lo1, hi1)
+        return key + (c0, c1), (nb[0], nb[1], nb1[0], nb1[1])
+
+    def locate(self, x0, x1) -> np.ndarray:
+        """Leaf index for each point (building cells as needed); -1 outside the domain or in a hole."""
+        x0, x1 = np.atleast_1d(np.asarray(x0, float)), np.atleast_1d(np.asarray(x1, float))
+        a0, b0, a1, b1 = self.domain
+        out = np.full(len(x0), -1, dtype=np.int64)
+        inside = (x0 >= a0) & (x0 <= b0) & (x1 >= a1) & (x1 <= b1) & np.isfinite(x0) & np.isfinite(x1)
+        idx = np.flatnonzero(inside)
+        keys = self._root_keys(x0[idx], x1[idx])
+        bounds = {k: self._root_bounds(k) for k in set(keys)}
+        while len(idx):
+            new = [(k, bounds[k]) for k in dict.fromkeys(keys) if k not in self.cells]
+            if new:
+                self._build(new)
+            nk, ni = [], []
+            for j, k in zip(idx, keys):
+                b, split, leaf = self.cells[k]
+                if split is None:
+                    out[j] = leaf if self.leaf_flags[leaf] != HOLE else -1
+                    continue
+                ck, cb = self._child(k, b, split, x0[j], x1[j])
+                bounds[ck] = cb
+                nk.append(ck)
+                ni.append(j)
+            idx, keys = np.array(ni, dtype=np.int64), nk
+        return out
+
+    # -- evaluation -------------------------------------------------------------------------------------
+    @property
+    def patches(self) -> PatchSet:
+        if self._ps is None:
+            self._ps = PatchSet(np.array(self.leaf_bounds).reshape(-1, 4),
+                                np.array(self.leaf_coeffs) if self.leaf_coeffs else np.zeros((0, 1, self.n, self.n)))
+        return self._ps
+
+    def evaluate(self, x0, x1, truncate: int = 0):
+        """Values (M, m), gradients (M, m, 2) and leaf indices; NaN where there is no leaf."""
+        p = self.locate(x0, x1)
+        ps = self.patches
+        coeffs = ps.truncated(truncate) if truncate else None
+        val, grad = ps.evaluate(x0, x1, patch=p, coeffs=coeffs)
+        return val, grad, p
+
+    def flags(self, p: np.ndarray) -> np.ndarray:
+        f = np.array(self.leaf_flags + [HOLE], dtype=np.int8)
+        return f[np.where(p >= 0, p, len(self.leaf_flags))]
+
+    def tails(self, p: np.ndarray) -> np.ndarray:
+        t = np.array(self.leaf_tails + [np.inf])
+        return t[np.where(p >= 0, p, len(self.leaf_tails))]
+
+    def stats(self) -> dict:
+        fl = np.array(self.leaf_flags, dtype=np.int8)
+        return {"cells": len(self.cells), "leaves": len(self.leaf_flags), "samples": self.samples,
+                "rough": int(np.sum(fl == ROUGH)), "holes": int(np.sum(fl == HOLE))}
