@@ -33,3 +33,18 @@ def solve_point(model, T, mu, settings: SolverSettings | None = None) -> list[Po
     T, mu = check_target(T, mu)
     settings = resolve_method(model, settings or SolverSettings())
     return classify(model.solve(T, mu, settings))
+
+
+def solve_points(model, targets, settings: SolverSettings | None = None) -> list[list[PointResult]]:
+    """:func:`solve_point` for many targets ``[(T, mu), ...]`` of one model: one list per target.
+
+    A kind that can solve targets together (``model.solve_many``, e.g. ``emd`` through its atlas)
+    does so in one batch; others are solved one by one. Targets are validated before any work.
+    """
+    targets = [check_target(T, mu, key_T=f"targets[{k}].T", key_mu=f"targets[{k}].mu")
+               for k, (T, mu) in enumerate(targets)]
+    settings = resolve_method(model, settings or SolverSettings())
+    many = getattr(model, "solve_many", None)
+    if many is None:
+        return [classify(model.solve(T, mu, settings)) for T, mu in targets]
+    return [classify(rs) for rs in many(targets, settings)]

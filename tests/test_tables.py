@@ -70,14 +70,14 @@ def test_field_metadata_and_file_key_round_trip(tmp_path):
 
 
 def test_failed_point_is_a_row_and_the_chunk_goes_on(tmp_path, monkeypatch):
-    real = chunk_mod.solve_point
+    real = chunk_mod.solve_points
 
-    def flaky(model, T, mu, settings):  # a bug in one point must not cost the others
-        if model.id == "a" and T == 0.6 and mu == 0.0:
+    def flaky(model, targets, settings):  # a bug in one point must not cost the others
+        if model.id == "a" and (0.6, 0.0) in targets:
             raise RuntimeError("simulated bug")
-        return real(model, T, mu, settings)
+        return real(model, targets, settings)
 
-    monkeypatch.setattr(chunk_mod, "solve_point", flaky)
+    monkeypatch.setattr(chunk_mod, "solve_points", flaky)
     _, out, summary = build(tmp_path)
     df = pd.read_parquet(out)
     bad = df[(df.model_id == "a") & (df["T"] == 0.6) & (df.mu == 0.0)].iloc[0]

@@ -118,18 +118,32 @@ def _failed(model_id, type_, method, T, mu, exc, t0, cnt=None) -> LinePoint:
                      shots=cnt.shots if cnt else 0, wall_time=time.perf_counter() - t0)
 
 
-def _emd_sourced(model, settings, Ts, mus):
-
+def _curve_shooter(model, settings):
+    """What the fixed-mu curves are sampled with: the model's atlas (method ``atlas``, the default)
+    or direct shots (method ``shooting``)."""
     from ..models.emd import _shooter
-    from . import fixed_mu as fm
 
     V, f = model.couplings()
     sh = _shooter(model, V, f)
+    if settings.method in ("atlas", "auto"):
+        from ..atlas.brane_map import AtlasShooter
+        from ..emd_batch import batch_solver
+
+        return AtlasShooter(batch_solver(model, sh, settings.with_method("atlas")).map)
+    return sh
+
+
+def _emd_sourced(model, settings, Ts, mus):
+
+    from . import fixed_mu as fm
+
+    sh = _curve_shooter(model, settings)
     ss = settings.shoot_settings()
     L = model.energy_scale
     T_lo, T_hi = Ts[0] / L / T_MARGIN, Ts[-1] / L * T_MARGIN
     n = CURVE_NODES
-    curve_method = f"fixed-mu curve in horizon data, {n} Chebyshev nodes"
+    on = " (interpolated by the atlas)" if hasattr(sh, "map") else ""
+    curve_method = f"fixed-mu curve in horizon data{on}, {n} Chebyshev nodes"
     rows, measures = [], []
     for mu in mus:
         t0, cnt = time.perf_counter(), Counters()

@@ -13,7 +13,7 @@ import pyarrow.parquet as pq
 
 from .. import __version__
 from ..models import model_from_block
-from ..point import solve_point
+from ..point import solve_points
 from ..result import Status
 from ..settings import SolverSettings
 from .identity import code_hash
@@ -45,24 +45,53 @@ def solve_manifest(manifest: dict, *, log_file: str = "", log=print) -> list[dic
     rows = []
     base = {"chunk_id": manifest["chunk"], "code_hash": manifest["code_hash"], "package_version": __version__,
             "host": host, "log_file": log_file}
+    groups: dict = {}
     for mid, T, mu, key in manifest["points"]:
+        groups.setdefault(mid, []).append((T, mu, key))
+    for mid, pts in groups.items():
         model, settings = models[mid]
-        start = utc_now()
-        t0 = time.perf_counter()
-        try:
-            results = [r.to_dict() for r in solve_point(model, T, mu, settings)]
-        except Exception as exc:  # a bug must not cost the other points: record it
-            results = [{"model_id": mid, "kind": model.kind, "d": getattr(model, "d", 0), "branch": 0, "T": T,
-                        "mu": mu, "status": Status.FAILED.value, "method": settings.method,
-                        "message": f"internal error: {type(exc).__name__}: {exc}", "wall_time": time.perf_counter() - t0}]
+        for block in _batches(model, pts):
+            rows += _solve_block(model, settings, mid, block, base, log)
+    return rows
+
+
+def _batches(model, pts):
+    """Points of one model in solve order: one batch for a kind that solves many at once."""
+    if getattr(model, "solve_many", None) is not None:
+        return [pts]
+    return [[p] for p in pts]
+
+
+def _solve_block(model, settings, mid, block, base, log) -> list[dict]:
+    """Rows of a block of points of one model; an exception in a batch falls back to one by one,
+    and one in a point becomes that point's failed row."""
+    start = utc_now()
+    t0 = time.perf_counter()
+    try:
+        per_point = [[r.to_dict() for r in rs] for rs in solve_points(model, [(T, mu) for T, mu, _ in block], settings)]
+    except Exception as exc:  # a bug must not cost the other points: record it, then go one by one
+        if len(block) == 1:
+            T, mu, _ = block[0]
+            per_point = [[{"model_id": mid, "kind": model.kind, "d": getattr(model, "d", 0), "branch": 0, "T": T,
+                           "mu": mu, "status": Status.FAILED.value, "method": settings.method,
+                           "message": f"internal error: {type(exc).__name__}: {exc}",
+                           "wall_time": time.perf_counter() - t0}]]
             log(traceback.format_exc())
-        end = utc_now()
-        for r in results:
+        else:
+            log(traceback.format_exc())
+            log(f"{mid}: batch of {len(block)} points failed; solving them one by one")
+            return [r for p in block for r in _solve_block(model, settings, mid, [p], base, log)]
+    end = utc_now()
+    rows = []
+    per = (time.perf_counter() - t0) / len(block)
+    for (T, mu, key), results in zip(block, per_point):
+        out = results
+        for r in out:
             r["extra"] = json.dumps(r.get("extra", {}), sort_keys=True, default=str)
             r.update(base, point_key=key, start_time=start, end_time=end, accept_error=settings.accept_error)
             rows.append(r)
-        st = ", ".join(r["status"] for r in results)
-        log(f"{mid} T={T!r} mu={mu!r}: {st} ({time.perf_counter() - t0:.3f} s)")
+        st = ", ".join(r["status"] for r in out)
+        log(f"{mid} T={T!r} mu={mu!r}: {st} ({per:.3f} s{' per point of a batch' if len(block) > 1 else ''})")
     return rows
 
 
