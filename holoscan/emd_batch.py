@@ -18,8 +18,9 @@ Per batch of targets ``(T, mu)`` (config units):
    (unsourced). ``deriv_error`` compares the derivatives with those of the atlas less its last two
    Chebyshev orders.
 
-A target with a seed outside the atlas (``u > U_MAX``), or whose Newton iteration leaves it, is
-solved point by point instead (``method`` then says ``shooting``). Every root is a row with its own
+A target with a seed outside the atlas (``u > U_MAX``), or a seed whose Newton iteration on the
+atlas does not converge after trying to step out of it, is solved point by point
+instead (``method`` then says ``shooting``). Every root is a row with its own
 status, error estimate and evidence; ``wall_time`` is the batch's time shared equally by its targets.
 """
 from __future__ import annotations
@@ -125,12 +126,15 @@ class BatchSolver:
         ti, q = ti[keep], q[keep]
         if len(q):
             c0, c1 = self._coords(q)
-            end, norm, iters = self.map.newton(np.column_stack([c0, c1]), a[ti], x[ti])
-            for t, e, nm, it in zip(ti, end, norm, iters):
+            end, norm, iters, edge = self.map.newton(np.column_stack([c0, c1]), a[ti], x[ti])
+            for t, e, nm, it, out_ in zip(ti, end, norm, iters, edge):
                 if fallback[t]:
                     continue
                 if not np.isfinite(nm) or nm > 1e-9:
-                    continue      # this seed led nowhere (as in the point solver); others may
+                    # a seed that leads nowhere is dropped (as in the point solver), unless its
+                    # iteration tried to leave the atlas: the root may lie beyond, the point solver decides
+                    fallback[t] |= bool(out_)
+                    continue
                 if abs(e[1]) < 1e-14:
                     e = np.array([e[0], 0.0])
                 if not any(abs(e[0] - r[0]) < 1e-7 * max(1.0, abs(e[0])) and abs(e[1] - r[1]) < 1e-7 for r in out[t]):
@@ -145,24 +149,24 @@ class BatchSolver:
         T, mu = np.asarray(T, float), np.asarray(mu, float)
         roots = self.roots(T, mu)
         flat = [(t, r) for t, rs in enumerate(roots) if rs for r in rs]
-        results: list[list[PointResult]] = [[] for _ in T]
+        fields: list[list[dict]] = [[] for _ in T]
         if flat:
             ti = np.array([t for t, _ in flat])
             C = np.array([[r[0], r[1]] for _, r in flat])
-            rows = self._rows(T[ti], mu[ti], C, [r[2] for _, r in flat], [r[3] for _, r in flat])
-            for t, row in zip(ti, rows):
-                results[t].append(row)
+            for t, row in zip(ti, self._rows(T[ti], mu[ti], C, [r[2] for _, r in flat], [r[3] for _, r in flat])):
+                fields[t].append(row)
         share = (time.perf_counter() - t0) / max(len(T), 1)
         from .models.emd import solve_family, solve_sourced  # point-by-point fallback
+
+        results: list[list[PointResult]] = []
         for t, rs in enumerate(roots):
             if rs is None:
                 fn = solve_sourced if self.sourced else solve_family
-                results[t] = fn(self.model, self.sh, float(T[t]), float(mu[t]), self.settings)
-                continue
-            if not rs:
-                results[t] = [self._no_solution(T[t], mu[t], share)]
-                continue
-            results[t] = [_with(r, branch=b, wall_time=share) for b, r in enumerate(results[t])]
+                results.append(fn(self.model, self.sh, float(T[t]), float(mu[t]), self.settings))
+            elif not rs:
+                results.append([self._no_solution(T[t], mu[t], share)])
+            else:
+                results.append([PointResult(**f, branch=b, wall_time=share) for b, f in enumerate(fields[t])])
         return results
 
     def _common(self, T, mu):
@@ -177,102 +181,100 @@ class BatchSolver:
                                    f"phi0 = {self.sh.phi0_max:g})")
 
     # -- rows -------------------------------------------------------------------------------------------
-    def _rows(self, T, mu, C, norms, iters):
+    def _rows(self, T, mu, C, norms, iters) -> list[dict]:
+        """PointResult fields (all but branch and wall_time) for every root, vectorised."""
+        from .thermo import cs2_from_hessian
+
         m, d = self.map, D_BOUNDARY
+        L = getattr(self.model, "energy_scale", 1.0)
+        M = len(C)
         g, dg, leaf = m.evaluate(C[:, 0], C[:, 1])
         gt, dgt, _ = m.evaluate(C[:, 0], C[:, 1], truncate=2)
         vals, grads = m.physical(C[:, 1], g, dg)
         _, grads_t = m.physical(C[:, 1], gt, dgt)
-        # verification: one direct shot per root
+        # verification: one direct shot per root, all in one batched integration
         Q = np.column_stack([m.phi0(C[:, 0]), C[:, 1]])
         det = {}
         o = self.sh.observe_many(Q, self.ss, record=True, detail=det)
         ok_shot = np.all(np.isfinite(o), axis=1)
-        direct_vals, _ = m.physical(C[:, 1], m.functions(o, np.where(C[:, 1] > 0, C[:, 1], 1.0)),
-                                    np.zeros((len(C), 4, 2)))
-        compared = [0, 1, 2, 3]
-        if not self.sourced:
-            # compare x, s_hat, rho_hat; the source j = 0 is the target condition (its direct value
-            # is kept as evidence: ``direct_source``)
-            direct_vals, compared = o.copy(), [0, 2, 3]
+        if self.sourced:
+            direct_vals, _ = m.physical(C[:, 1], m.functions(o, np.where(C[:, 1] > 0, C[:, 1], 1.0)),
+                                        np.zeros((M, 4, 2)))
+            compared = [0, 1, 2, 3]
+        else:
+            # compare x, s_hat, rho_hat; the source j = 0 is the target condition (its direct value is
+            # kept as evidence: ``direct_source``)
+            direct_vals, compared = o, [0, 2, 3]
         with np.errstate(all="ignore"):
             diff = np.abs(direct_vals - vals)[:, compared]
             mismatch = np.max(np.where(diff == 0, 0.0, diff / np.maximum(np.abs(vals[:, compared]), 1e-300)), axis=1)
-            scale = np.maximum(np.abs(grads), 1e-300)
-            deriv_err = np.max(np.abs(grads - grads_t) / np.max(scale, axis=2, keepdims=True), axis=(1, 2))
+            scale = np.max(np.maximum(np.abs(grads), 1e-300), axis=2, keepdims=True)
+            deriv_err = np.max(np.abs(grads - grads_t) / scale, axis=(1, 2))
+        x = np.abs(mu) / T
+        sign = np.where(mu < 0, -1.0, 1.0)
+        # Jacobians of (T, mu) and (s, rho) along two directions, in the units where the atlas lives
+        if self.sourced:
+            Jt, Jd = grads[:, :2, :], grads[:, 2:, :]
+            s, rho = vals[:, 2] * L ** (d - 1), vals[:, 3] * L ** (d - 1)
+            f2 = L ** (d - 2)
+        else:
+            xs, sh_, rh = vals[:, 0], vals[:, 2], vals[:, 3]
+            tv = np.stack([grads[:, 1, 1], -grads[:, 1, 0]], axis=1)     # along the j = 0 family
+            tv /= np.linalg.norm(tv, axis=1, keepdims=True)
+            dx, ds, dr = (np.einsum("mk,mk->m", grads[:, k, :], tv) for k in (0, 2, 3))
+            Jt = np.stack([np.stack([np.zeros(M), np.ones(M)], 1), np.stack([dx, xs], 1)], 1)
+            Jd = np.stack([np.stack([ds, (d - 1) * sh_], 1), np.stack([dr, (d - 1) * rh], 1)], 1)
+            s, rho = sh_ * T ** (d - 1), rh * T ** (d - 1)
+            f2 = T ** (d - 2)
+        with np.errstate(all="ignore"):
+            H = Jd @ np.linalg.inv(Jt)
+        s_mu, rho_T = H[:, 0, 1], H[:, 1, 0]
+        maxwell = np.where((s_mu == 0) & (rho_T == 0), 0.0,
+                           np.abs(s_mu - rho_T) / np.maximum(np.maximum(np.abs(s_mu), np.abs(rho_T)), 1e-300))
+        P_TT, P_Tmu, P_mumu = H[:, 0, 0] * f2, 0.5 * (s_mu + rho_T) * f2, H[:, 1, 1] * f2
+        stable = (P_TT > 0) & (P_TT * P_mumu - P_Tmu**2 > 0)
         if self.sourced:
             P1, P2 = self._pressure(C)
+            P, P_check = P1 * L**d, P2 * L**d
+            eps = T * s + x * T * rho - P
+            trace = (eps - 3 * P) / T**4
+            P_mismatch = np.abs(P1 - P2) / np.maximum(np.abs(P1), 1e-300)
+            error = np.maximum(mismatch, P_mismatch)
+            k_ref = self._P0().k_ref
+        else:
+            P = (T * s + x * T * rho) / d
+            P_check, eps, trace, error = P, (d - 1) * P, np.zeros(M), mismatch
+        cs2 = cs2_from_hessian(T, x * T, s, rho, P_TT, P_Tmu, P_mumu)
+        flags = m.atlas.flags(leaf)
+        tails = m.atlas.tails(leaf)
         rows = []
-        for k in range(len(C)):
+        for k in range(M):
             common = self._common(T[k], mu[k])
-            sign = -1.0 if mu[k] < 0 else 1.0
-            flag = FLAG_NAMES[int(m.atlas.flags(np.array([leaf[k]]))[0])]
-            extra = {"horizon_phi0": float(Q[k, 0]), "horizon_u": float(Q[k, 1]) * sign,
+            extra = {"horizon_phi0": float(Q[k, 0]), "horizon_u": float(Q[k, 1] * sign[k]),
                      "target_mismatch": float(norms[k]), "atlas_mismatch": float(mismatch[k]),
-                     "deriv_error": float(deriv_err[k]), "atlas_leaf": flag,
-                     "atlas_tail": float(m.atlas.tails(np.array([leaf[k]]))[0]), "shots": 1}
-            if not self.sourced:
+                     "deriv_error": float(deriv_err[k]), "atlas_leaf": FLAG_NAMES[int(flags[k])],
+                     "atlas_tail": float(tails[k]), "shots": 1, "maxwell_mismatch": float(maxwell[k]),
+                     "trace_anomaly": float(trace[k])}
+            if self.sourced:
+                extra.update(P_route2=float(P_check[k]), P_mismatch=float(P_mismatch[k]), P_reference_power=k_ref)
+            else:
                 extra["direct_source"] = float(o[k, 1])
             counts = dict(nfev=int(det["nfev"][k]), nsteps=int(det["nsteps"][k]), niter=int(iters[k]))
             if not ok_shot[k]:
-                rows.append(PointResult(**common, status=Status.FAILED, extra=extra, **counts,
-                                        message="the verification shot at the atlas root failed"))
+                rows.append(dict(**common, status=Status.FAILED, extra=extra, **counts,
+                                 message="the verification shot at the atlas root failed"))
                 continue
             residual = float(det["residual"][k])
-            if self.sourced:
-                rows.append(self._sourced_row(common, sign, vals[k], grads[k], P1[k], P2[k], mismatch[k],
-                                              residual, extra, counts, norms[k]))
-            else:
-                rows.append(self._family_row(common, sign, vals[k], grads[k], mismatch[k], residual, extra,
-                                             counts, norms[k]))
+            problems = self.settings.problems(float(error[k]), residual)
+            rows.append(dict(
+                **common, s=float(s[k]), rho=float(sign[k] * rho[k]), epsilon=float(eps[k]), P=float(P[k]),
+                chi2=float(P_mumu[k]), cs2=float(cs2[k]), P_check=float(P_check[k]), trace_anomaly=float(trace[k]),
+                stability="stable" if stable[k] else "unstable",
+                status=Status.NOT_CONVERGED if problems else Status.OK,
+                message="; ".join(problems) or (f"converged on the atlas: |F| = {norms[k]:.2e}; a direct shot "
+                                                f"agrees to {mismatch[k]:.1e}"),
+                residual=residual, error_estimate=float(error[k]), extra=extra, **counts))
         return rows
-
-    def _finish(self, common, extra, counts, error, residual, fnorm, **obs):
-        problems = self.settings.problems(error, residual)
-        return PointResult(**common, **obs, status=Status.NOT_CONVERGED if problems else Status.OK,
-                           message="; ".join(problems) or
-                           f"converged on the atlas: |F| = {fnorm:.2e}; a direct shot agrees to {extra['atlas_mismatch']:.1e}",
-                           residual=residual, error_estimate=error, extra=extra, **counts)
-
-    def _sourced_row(self, common, sign, v, G, P1, P2, mismatch, residual, extra, counts, fnorm):
-        from .thermo import cs2_from_hessian, hessian_from_jacobians, local_stability
-
-        d, L = D_BOUNDARY, getattr(self.model, "energy_scale", 1.0)
-        T, x = common["T"], abs(common["mu"]) / common["T"]
-        P_TT, P_Tmu, P_mumu, maxwell = hessian_from_jacobians(G[:2], G[2:])
-        s, rho, P = v[2] * L ** (d - 1), v[3] * L ** (d - 1), P1 * L**d
-        f2 = L ** (d - 2)
-        P_TT, P_Tmu, P_mumu = P_TT * f2, P_Tmu * f2, P_mumu * f2
-        eps = T * s + x * T * rho - P
-        P_mismatch = abs(P1 - P2) / max(abs(P1), 1e-300)
-        extra.update(P_route2=P2 * L**d, P_mismatch=P_mismatch, trace_anomaly=(eps - 3 * P) / T**4,
-                     maxwell_mismatch=maxwell, P_reference_power=self._P0().k_ref)
-        return self._finish(common, extra, counts, max(mismatch, P_mismatch), residual, fnorm,
-                            s=s, rho=sign * rho, epsilon=eps, P=P, chi2=P_mumu,
-                            cs2=cs2_from_hessian(T, x * T, s, rho, P_TT, P_Tmu, P_mumu), P_check=P2 * L**d,
-                            trace_anomaly=(eps - 3 * P) / T**4, stability=local_stability(P_TT, P_Tmu, P_mumu))
-
-    def _family_row(self, common, sign, v, G, mismatch, residual, extra, counts, fnorm):
-        from .thermo import cs2_from_hessian, hessian_from_jacobians, local_stability
-
-        d = D_BOUNDARY
-        T, x = common["T"], abs(common["mu"]) / common["T"]
-        xs, _, sh_, rh = v
-        t = np.array([G[1, 1], -G[1, 0]])
-        t /= np.linalg.norm(t)
-        dx, ds, dr = G[0] @ t, G[2] @ t, G[3] @ t
-        Jt = np.array([[0.0, 1.0], [dx, xs]])
-        Jd = np.array([[ds, (d - 1) * sh_], [dr, (d - 1) * rh]])
-        P_TT, P_Tmu, P_mumu, maxwell = hessian_from_jacobians(Jt, Jd)
-        f2 = T ** (d - 2)
-        P_TT, P_Tmu, P_mumu = P_TT * f2, P_Tmu * f2, P_mumu * f2
-        s, rho = sh_ * T ** (d - 1), rh * T ** (d - 1)
-        P = (T * s + x * T * rho) / d
-        extra.update(maxwell_mismatch=maxwell, trace_anomaly=0.0)
-        return self._finish(common, extra, counts, mismatch, residual, fnorm,
-                            s=s, rho=sign * rho, epsilon=(d - 1) * P, P=P, chi2=P_mumu,
-                            cs2=cs2_from_hessian(T, x * T, s, rho, P_TT, P_Tmu, P_mumu), P_check=P,
-                            trace_anomaly=0.0, stability=local_stability(P_TT, P_Tmu, P_mumu))
 
     # -- pressure on the atlas ----------------------------------------------------------------------
     def _P0(self):
@@ -310,12 +312,6 @@ class BatchSolver:
         up = self._segment(np.column_stack([cs, 0 * c1]), np.column_stack([cs, c1]), 1)
         across = self._segment(np.column_stack([cs, c1]), C, 0)
         return P1, Pref + up + across
-
-
-def _with(r: PointResult, **kw) -> PointResult:
-    from dataclasses import replace
-
-    return replace(r, **kw)
 
 
 _SOLVERS: dict = {}

@@ -23,7 +23,6 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .bulk.charged_brane import HorizonData
 from .bulk.scalar_brane import ScalarBrane
 from .engine import Counters, ShootSettings
 from .engine.batch import dop853_batch

@@ -111,13 +111,15 @@ class BraneMap:
     def newton(self, q, a, x, maxiter: int = 40):
         """Damped Newton on the atlas for many (start, target) pairs at once.
 
-        Returns the end points (M, 2), the scaled residual norm there (inf where the iteration left
-        the atlas or failed) and the iteration counts."""
+        Returns the end points (M, 2), the scaled residual norm there (inf where the iteration
+        failed), the iteration counts, and whether the iteration stopped within 0.02 of ``U_MAX``."""
         q = np.array(q, float)
         a, x = np.broadcast_to(a, len(q)).astype(float), np.broadcast_to(x, len(q)).astype(float)
         norm = np.full(len(q), np.inf)
         iters = np.zeros(len(q), np.int64)
         active = np.ones(len(q), bool)
+        edge = np.zeros(len(q), bool)
+        b1 = self.atlas.domain[3]
         F, J, sc, _ = self.residual(q[:, 0], q[:, 1], a, x)
         norm = np.max(np.abs(F) / sc, axis=1)
         norm[~np.isfinite(norm)] = np.inf
@@ -153,7 +155,8 @@ class BraneMap:
             active[idx[pending]] = False                    # no decrease found
             tiny = np.max(np.abs(step), axis=1) < 1e-15 * (1 + np.max(np.abs(q[idx]), axis=1))
             active[idx[tiny]] = False
-        return q, norm, iters
+        edge = q[:, 1] > b1 - 0.02        # stopped at the atlas's edge in u (the point solver goes further)
+        return q, norm, iters, edge
 
 
 class AtlasShooter:

@@ -50,24 +50,26 @@ def dop853_batch(fun, x0, y0, x1, rtol: float, atol: float = 1e-300, *, monitor=
     d1 = np.sqrt(np.mean((f / scale) ** 2, axis=0))
     h = np.where((d0 > 1e-5) & (d1 > 1e-5), 0.01 * d0 / np.maximum(d1, 1e-300), 1e-6)
     h = np.minimum(h, x1 - x)
-    K = np.empty((_S + 1, n, nb))
     it = 0
     while np.any(active) and it < max_steps:
         it += 1
         idx = np.flatnonzero(active)
+        m = len(idx)
         yi, fi, hi = y[:, idx], f[:, idx], np.minimum(h[idx], x1[idx] - x[idx])
-        Ki = K[:, :, : len(idx)]
-        Ki[0] = fi
+        # stages as rows of one contiguous (stages, n*m) array: each combination of stages is one
+        # matrix-vector product with no copy (a strided view would be copied at every stage)
+        Ki = np.empty((_S + 1, n * m))
+        Ki[0] = fi.ravel()
         with np.errstate(all="ignore"):
             for s in range(1, _S):
-                dy = np.tensordot(_A[s, :s], Ki[:s], axes=(0, 0)) * hi
-                Ki[s] = fun(yi + dy)
-            y_new = yi + hi * np.tensordot(_B, Ki[:_S], axes=(0, 0))
-            f_new = fun(y_new)
-            Ki[_S] = f_new
+                dy = (_A[s, :s] @ Ki[:s]).reshape(n, m) * hi
+                Ki[s] = np.asarray(fun(yi + dy)).ravel()
+            y_new = yi + hi * (_B @ Ki[:_S]).reshape(n, m)
+            f_new = np.asarray(fun(y_new))
+            Ki[_S] = f_new.ravel()
             sc = atol + rtol * np.maximum(np.abs(yi), np.abs(y_new))
-            e5 = np.tensordot(_E5, Ki, axes=(0, 0)) / sc
-            e3 = np.tensordot(_E3, Ki, axes=(0, 0)) / sc
+            e5 = (_E5 @ Ki).reshape(n, m) / sc
+            e3 = (_E3 @ Ki).reshape(n, m) / sc
             n5, n3 = np.sum(e5**2, axis=0), np.sum(e3**2, axis=0)
             den = n5 + 0.01 * n3
             err = np.where(den > 0, np.abs(hi) * n5 / np.sqrt(np.where(den > 0, den, 1.0) * n), 0.0)

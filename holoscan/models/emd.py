@@ -127,7 +127,7 @@ class EMDModel:
         if self.scalar_free():
             brane = ChargedBrane(D_BOUNDARY, V, f)
             return [solve_unsourced(brane, self.kappa_sq, T, mu, settings, model_id=self.id, kind=self.kind)]
-        if settings.method == "atlas":
+        if settings.method in ("atlas", "auto"):
             return self.solve_many([(T, mu)], settings)[0]
         if self.source:
             return solve_sourced(self, _shooter(self, V, f), T, mu, settings)
@@ -136,6 +136,8 @@ class EMDModel:
     def solve_many(self, targets, settings: SolverSettings = SolverSettings()) -> list[list[PointResult]]:
         """Every brane at each target ``(T, mu)``: one list of results per target. Method ``atlas``
         solves them together (:mod:`holoscan.emd_batch`); others one by one."""
+        if settings.method == "auto":
+            settings = settings.with_method(self.default_method)
         if settings.method != "atlas" or self.scalar_free():
             return [self.solve(T, mu, settings) for T, mu in targets]
         V, f = self.couplings()

@@ -61,7 +61,7 @@ def assemble(table_file, out_table, summary_json, summary_txt=None) -> dict:
     keys = {m: d["cost_key"] for m, d in doc["models"].items() if "cost_key" in d}
     if keys:  # the per-point cost each model showed, for sizing the chunks of later plans
         costs = read_costs(root)
-        costs.update(measured(table.select(["model_id", "point_key", "start_time", "end_time"]).to_pylist(), keys))
+        costs.update(measured(table, keys))
         write_costs(root, costs)
     summary = summarize(table, doc["model_order"])
     atomic_write_text(Path(summary_json), json.dumps(summary, indent=2))

@@ -5,10 +5,12 @@ With ``job_minutes`` in the scan config, a model without its own ``points_per_jo
 ``seconds_per_point`` is, in order of preference:
 
 1. measured: the mean over the model's points in the last assembled table of the scan of the
-   time each point took (``end_time - start_time``), stored in ``results/<scan>/costs.json`` by
-   assembly under a key of the model context (spec, solver settings, physics code);
-2. probed: one point (the middle of the model's grid) solved at planning time in the main process,
-   stored in the same file so that every later plan (and every cluster job) sizes chunks alike.
+   time each point took (its ``wall_time``; a point solved in a batch carries its share of the
+   batch), stored in ``results/<scan>/costs.json`` by assembly under a key of the model context
+   (spec, solver settings, physics code);
+2. probed: one point (the middle of the model's grid) solved at planning time in the main process
+   (for a kind that solves points in batches, a batch of 16, time per point), stored in the same
+   file so that every later plan (and every cluster job) sizes chunks alike.
 
 Each chunk's expected time (its points times the per-point cost) sets the runtime a job asks the
 scheduler for: three times the expectation, at least 10 minutes, times the attempt number.
@@ -18,9 +20,7 @@ from __future__ import annotations
 import hashlib
 import json
 import math
-import statistics
 import time
-from datetime import datetime
 from pathlib import Path
 
 from .store import atomic_write_text
@@ -57,28 +57,34 @@ def runtime_minutes(expected_seconds: float, attempt: int = 1) -> int:
     return int(max(MIN_RUNTIME_MINUTES, math.ceil(RUNTIME_SAFETY * expected_seconds / 60.0)) * attempt)
 
 
-def probe(model, settings, points) -> float:
-    """Seconds to solve the middle point of ``points`` (all branches), measured now."""
-    from ..point import solve_point
+def probe(model, settings, points, batch: int = 16) -> float:
+    """Seconds per point, measured now: the middle point of ``points`` (all branches); for a kind
+    that solves many points at once (``solve_many``), a batch of up to ``batch`` points around the
+    middle, whose time per point includes the kind's once-per-process set-up shared among them."""
+    from ..point import solve_points
 
-    T, mu = sorted(points)[len(points) // 2]
+    pts = sorted(points)
+    k = 1 if getattr(model, "solve_many", None) is None else min(batch, len(pts))
+    mid = len(pts) // 2
+    chosen = pts[max(0, mid - k // 2): max(0, mid - k // 2) + k]
     t0 = time.perf_counter()
-    solve_point(model, T, mu, settings)
-    return time.perf_counter() - t0
+    solve_points(model, chosen, settings)
+    return (time.perf_counter() - t0) / len(chosen)
 
 
-def measured(rows, keys_by_model: dict) -> dict:
-    """Costs entries from table rows (dicts with model_id, point_key, start_time, end_time)."""
-    per_point: dict = {}
-    for r in rows:
-        per_point[(r["model_id"], r["point_key"])] = (r["start_time"], r["end_time"])
-    by_model: dict = {}
-    for (mid, _), (a, b) in per_point.items():
-        try:
-            dt = (datetime.fromisoformat(b) - datetime.fromisoformat(a)).total_seconds()
-        except (TypeError, ValueError):
-            continue
-        by_model.setdefault(mid, []).append(dt)
-    return {keys_by_model[m]: {"model_id": m, "seconds_per_point": statistics.fmean(v), "points": len(v),
-                               "source": "measured"}
-            for m, v in by_model.items() if m in keys_by_model and v}
+def measured(table, keys_by_model: dict) -> dict:
+    """Costs entries from a points table (Arrow; columns model_id, point_key, wall_time): the mean over
+    each model's points of the point's solve time (its rows' largest ``wall_time``; a point solved in
+    a batch carries its share of the batch)."""
+    import pyarrow.compute as pc
+
+    t = table.select(["model_id", "point_key", "wall_time"])
+    t = t.filter(pc.is_finite(t["wall_time"]))
+    per_point = t.group_by(["model_id", "point_key"]).aggregate([("wall_time", "max")])
+    per_model = per_point.group_by("model_id").aggregate([("wall_time_max", "mean"), ("wall_time_max", "count")])
+    out = {}
+    for m, mean, n in zip(*(per_model[c].to_pylist() for c in ("model_id", "wall_time_max_mean", "wall_time_max_count"))):
+        if m in keys_by_model and n:
+            out[keys_by_model[m]] = {"model_id": m, "seconds_per_point": float(mean), "points": int(n),
+                                     "source": "measured"}
+    return out
