@@ -144,35 +144,20 @@ class ChargedBrane:
         return float(-(V + 0.5 * f * hd.Phi1**2) / (self.d - 1))
 
     def start_state(self, hd: HorizonData, eps: float) -> np.ndarray:
-        """State at ``r = eps`` from the regular second-order horizon series."""
-        d = self.d
-        phi0, P1 = hd.phi0, hd.Phi1
-        V, Vp, Vpp = (float(x) for x in self.V.derivs(phi0))
-        f, fp, fpp = (float(x) for x in self.f.derivs(phi0))
-        a1 = -(V + 0.5 * f * P1**2) / (d - 1)
-        if not a1 > 0.0:
-            raise ValueError(f"A'(horizon) = {a1:.6g} <= 0: no asymptotically AdS brane")
-        p1 = Vp - 0.5 * fp * P1**2                       # phi'(0)
-        a2 = -p1**2 / (2 * (d - 1))                      # A''(0)
-        h2 = -d * a1 + f * P1**2                          # h''(0)
-        P2 = -((d - 2) * a1 + fp * p1 / f) * P1           # Phi''(0)
-        S1 = Vpp * p1 - 0.5 * fpp * p1 * P1**2 + fp * a1 * P1**2 - fp * P1 * P2
-        p2 = (S1 - (d * a1 + h2) * p1) / 2.0             # phi''(0)
-        e = eps
-        return np.array([
-            a1 * e + 0.5 * a2 * e * e,
-            a1 + a2 * e,
-            e + 0.5 * h2 * e * e,
-            1.0 + h2 * e,
-            P1 * e + 0.5 * P2 * e * e,
-            P1 + P2 * e,
-            phi0 + p1 * e + 0.5 * p2 * e * e,
-            p1 + p2 * e,
-        ])
+        """State at ``r = eps`` from the regular second-order horizon series (:meth:`start_states`
+        for one datum); raises ValueError when ``A'(0) <= 0`` (no asymptotically AdS brane)."""
+        y = self.start_states(np.array([hd.phi0]), np.array([hd.Phi1]), eps)[:, 0]
+        if not np.all(np.isfinite(y)):
+            raise ValueError(f"A'(horizon) = {self.horizon_slope(hd):.6g} <= 0: no asymptotically AdS brane")
+        return y
 
     def start_states(self, phi0, Phi1, eps: float) -> np.ndarray:
-        """:meth:`start_state` for arrays of horizon data at once: states (8, B); NaN columns where
-        ``A'(0) <= 0`` (no asymptotically AdS brane)."""
+        """States (8, B) at ``r = eps`` from the regular second-order horizon series, for arrays of
+        horizon data at once; NaN columns where ``A'(0) <= 0`` (no asymptotically AdS brane)::
+
+            A'(0) = -(V + f Phi1^2/2)/(d-1),  phi'(0) = V_phi - f_phi Phi1^2/2,  A''(0) = -phi'(0)^2/(2(d-1)),
+            h''(0) = -d A'(0) + f Phi1^2,  Phi''(0) = -((d-2) A'(0) + f_phi phi'(0)/f) Phi1,
+            phi''(0) from the scalar equation at second order (see the code)."""
         d = self.d
         phi0, P1 = np.asarray(phi0, dtype=float), np.asarray(Phi1, dtype=float)
         with np.errstate(all="ignore"):

@@ -22,7 +22,6 @@ derivative of V at 0; from the scalar equation near the boundary), is removed, a
 """
 from __future__ import annotations
 
-import math
 
 import numpy as np
 
@@ -82,28 +81,7 @@ class ScalarBrane(ChargedBrane):
             }
 
     def boundary_dimensionless(self, y_end, kappa_sq: float) -> dict:
-        """``x = mu/T``, ``j``, ``s_hat = s/T^(d-1)``, ``rho_hat = rho/T^(d-1)`` (see module docstring)."""
-        d, D = self.d, self.delta
-        A, dA, h, dh, Ph, dPh, ph, dph = (float(v) for v in y_end)
-        f = float(self.f.derivs(ph)[0])
-        h_inf = h + dh / (d * dA)
-        if not (h_inf > 0 and dA > 0 and math.isfinite(h_inf)):
-            nan = math.nan
-            return {"x": nan, "j": nan, "s_hat": nan, "rho_hat": nan, "h_inf": h_inf, "frame_mismatch": nan}
-        sq = 4.0 * math.pi * math.sqrt(h_inf)
-        G = f * math.exp((d - 2) * A) * dPh
-        if abs(D - d / 2) < 1e-12:
-            a = (dph + 0.5 * d * dA * ph) * math.exp(0.5 * d * A) / dA
-        else:
-            k = d - D
-            a = (D * ph + dph / dA) * math.exp(k * A) / (2 * D - d)
-            if self.c2:
-                a -= self.c2 * a * a * (D - 2 * k) / (2 * D - d) * math.exp(-k * A)
-        return {
-            "x": 4.0 * math.pi * (Ph + dPh / ((d - 2) * dA)),
-            "j": a * sq ** (d - D),
-            "s_hat": 2.0 * math.pi / kappa_sq * sq ** (d - 1),
-            "rho_hat": G / (2.0 * kappa_sq) * sq ** (d - 1),
-            "h_inf": h_inf,
-            "frame_mismatch": abs(dA * math.sqrt(h_inf) - 1.0),
-        }
+        """``x = mu/T``, ``j``, ``s_hat = s/T^(d-1)``, ``rho_hat = rho/T^(d-1)`` (see module docstring),
+        as floats, for one end state (NaN where invalid)."""
+        o = self.boundary_dimensionless_many(np.asarray(y_end, dtype=float).reshape(-1, 1), kappa_sq)
+        return {k: float(np.asarray(v).reshape(-1)[0]) for k, v in o.items()}
