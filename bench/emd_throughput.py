@@ -335,6 +335,15 @@ def e3(v):
 HEAD = f"{'':34s} {'targets':>7s} {'conv':>7s} {'core-s':>8s} {'pts/core-s':>10s}"
 
 
+def print_table(rows_a, worst_a, rows_b, worst_b):
+    """One line per method: targets, converged (worst repeat), median core-s and rate, worst errors."""
+    for label, rr, w in (("(a) plain reference (sample)", rows_a, worst_a),
+                         ("(b) production (all targets)", rows_b, worst_b)):
+        n = rr[0][0]
+        print(f"{label:34s} {n:7d} {min(c for _, c, _, _ in rr):7d} {statistics.median(x[2] for x in rr):8.2f} "
+              f"{statistics.median(x[3] for x in rr):10.2f} {e3(w)}")
+
+
 # == the two models ==================================================================================
 def one_charge(a):
     model = model_from_block(ONE_CHARGE)
@@ -381,11 +390,7 @@ def one_charge(a):
     n_ok_rows = sum(r.status == Status.OK for rows in rb for r in rows)
 
     print(f"\n{HEAD} {'err s':>9s} {'err rho':>9s} {'err mu':>9s}")
-    for label, rr, w in (("(a) plain reference (sample)", rows_a, worst_a),
-                         ("(b) production (all targets)", rows_b, worst_b)):
-        n = rr[0][0]
-        print(f"{label:34s} {n:7d} {min(c for _, c, _, _ in rr):7d} {statistics.median(x[2] for x in rr):8.2f} "
-              f"{statistics.median(x[3] for x in rr):10.2f} {e3(w)}")
+    print_table(rows_a, worst_a, rows_b, worst_b)
     print(f"   errors: worst relative vs the closed form, stable branch; (a) over its sample, (b) over all "
           f"{len(targets)} targets and {a.repeats} repeat(s)")
     print(f"   production: {n_ok_rows}/{n_rows} rows ok ({n_rows} branches at {len(targets)} targets), larger-s "
@@ -452,11 +457,7 @@ def demo(a):
     n_ok_rows = sum(r.status == Status.OK for rows in rb for r in rows)
     est = max((r.error_estimate for rows in rb for r in rows if r.status == Status.OK), default=math.nan)
     print(f"\n{HEAD} {'diff s':>9s} {'diff rho':>9s}")
-    for label, rr, w in (("(a) plain reference (sample)", rows_a, worst_a),
-                         ("(b) production (all targets)", rows_b, worst_b)):
-        n = rr[0][0]
-        print(f"{label:34s} {n:7d} {min(c for _, c, _, _ in rr):7d} {statistics.median(x[2] for x in rr):8.2f} "
-              f"{statistics.median(x[3] for x in rr):10.2f} {e3(w)}")
+    print_table(rows_a, worst_a, rows_b, worst_b)
     print(f"   diffs: worst relative vs the tight solve on the {n_tight}/{len(refs)} sampled targets where it converged"
           f"{f' (rho not compared at {skipped_rho} with mu = 0)' if skipped_rho else ''}; (b): its branch with the closest s")
     print(f"   production: {n_ok_rows}/{n_rows} rows ok ({n_rows} branches at {len(targets)} targets), "
@@ -465,7 +466,7 @@ def demo(a):
         print(f"   !!! the reference at rtol {rtol:g} does NOT reach {TARGET_ACC:g} on this model (see --demo-ref-rtol); "
               f"the ratio below is not at equal accuracy and favours the reference")
     if n_tight < len(refs) or min(c for _, c, _, _ in rows_a) < len(refs):
-        print(f"   !!! the plain method from its naive guess failed on some sampled targets (counted as not converged)")
+        print("   !!! the plain method from its naive guess failed on some sampled targets (counted as not converged)")
     print(f"ratio (b)/(a) demo: {spread(ratios)} -> "
           f"{verdict(ratios, bool(np.all(worst_a <= TARGET_ACC) and np.all(worst_b <= TARGET_ACC)))}")
 

@@ -20,7 +20,6 @@ import argparse
 import shutil
 import sys
 import tempfile
-import time
 from collections import Counter
 from datetime import datetime
 from pathlib import Path
@@ -58,7 +57,6 @@ def main(argv=None) -> int:
     try:
         prepare(root, cfg)
         print(f"load before: {load()}")
-        t0 = time.perf_counter()
         wall, out, err = snakemake(root, what="dense dilaton scan")
         print(f"load after:  {load()}")
         res = root / "results" / cfg["scan"]
