@@ -4,10 +4,10 @@ With ``job_minutes`` in the scan config, a model without its own ``points_per_jo
 ``points_per_job = floor(job_minutes * 60 / seconds_per_point)`` (at least 1), where
 ``seconds_per_point`` is, in order of preference:
 
-1. measured: the mean over the model's points in the last assembled table of the scan of the
-   time each point took (its ``wall_time``; a point solved in a batch carries its share of the
-   batch), stored in ``results/<scan>/costs.json`` by assembly under a key of the model context
-   (spec, solver settings, physics code);
+1. measured: from the last assembled table of the scan, the time the model's chunks spent on it
+   (first start to last end of its points in each chunk: solves, a batch's set-up, bookkeeping)
+   divided by its number of points, stored in ``results/<scan>/costs.json`` by assembly under a
+   key of the model context (spec, solver settings, physics code);
 2. probed: one point (the middle of the model's grid) solved at planning time in the main process
    (for a kind that solves points in batches, a batch of 16, time per point), stored in the same
    file so that every later plan (and every cluster job) sizes chunks alike.
@@ -21,6 +21,7 @@ import hashlib
 import json
 import math
 import time
+from datetime import datetime
 from pathlib import Path
 
 from .store import atomic_write_text
@@ -73,18 +74,24 @@ def probe(model, settings, points, batch: int = 16) -> float:
 
 
 def measured(table, keys_by_model: dict) -> dict:
-    """Costs entries from a points table (Arrow; columns model_id, point_key, wall_time): the mean over
-    each model's points of the point's solve time (its rows' largest ``wall_time``; a point solved in
-    a batch carries its share of the batch)."""
+    """Costs entries from a points table (Arrow; columns model_id, chunk_id, point_key, start_time,
+    end_time): per model, the time its chunks spent on it (first start to last end of its points in
+    each chunk: solves, batch set-up and bookkeeping) divided by its number of points."""
     import pyarrow.compute as pc
 
-    t = table.select(["model_id", "point_key", "wall_time"])
-    t = t.filter(pc.is_finite(t["wall_time"]))
-    per_point = t.group_by(["model_id", "point_key"]).aggregate([("wall_time", "max")])
-    per_model = per_point.group_by("model_id").aggregate([("wall_time_max", "mean"), ("wall_time_max", "count")])
-    out = {}
-    for m, mean, n in zip(*(per_model[c].to_pylist() for c in ("model_id", "wall_time_max_mean", "wall_time_max_count"))):
-        if m in keys_by_model and n:
-            out[keys_by_model[m]] = {"model_id": m, "seconds_per_point": float(mean), "points": int(n),
-                                     "source": "measured"}
-    return out
+    t = table.select(["model_id", "chunk_id", "point_key", "start_time", "end_time"])
+    t = t.filter(pc.invert(pc.or_(pc.is_null(t["start_time"]), pc.is_null(t["end_time"]))))
+    g = t.group_by(["model_id", "chunk_id"]).aggregate(
+        [("start_time", "min"), ("end_time", "max"), ("point_key", "count_distinct")])
+    spent: dict = {}
+    for m, a, b, n in zip(*(g[c].to_pylist() for c in ("model_id", "start_time_min", "end_time_max",
+                                                         "point_key_count_distinct"))):
+        try:
+            dt = (datetime.fromisoformat(b) - datetime.fromisoformat(a)).total_seconds()
+        except (TypeError, ValueError):
+            continue
+        tot = spent.setdefault(m, [0.0, 0])
+        tot[0] += max(dt, 0.0)
+        tot[1] += n
+    return {keys_by_model[m]: {"model_id": m, "seconds_per_point": sec / n, "points": n, "source": "measured"}
+            for m, (sec, n) in spent.items() if m in keys_by_model and n}
