@@ -73,6 +73,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 import holoscan.emd_batch as emd_batch  # noqa: E402
 import holoscan.models.emd as emd_models  # noqa: E402
+from holoscan.point import solve_points  # noqa: E402
 from holoscan import SolverSettings, model_from_block  # noqa: E402
 from holoscan.point import resolve_method  # noqa: E402
 from holoscan.result import Status  # noqa: E402
@@ -277,11 +278,19 @@ def run_production(model, settings, targets, clear=True):
     if clear:
         cold()
     t = time.process_time()
-    res = model.solve_many(targets, settings)
+    res = solve_points(model, targets, settings)   # the public batch entry: solve_many, then phase labels
     return time.process_time() - t, res
 
 
 def converged(rows):
+    """A target is converged when its dominant branch (lowest grand potential among the locally
+    stable ones, the branch the reference's single root stands for) is ok. Every other branch a
+    target has is extra work production does on top; how many targets had every branch ok is
+    printed separately."""
+    return any(r.dominant and r.status == Status.OK for r in rows)
+
+
+def all_branches_ok(rows):
     return bool(rows) and all(r.status == Status.OK for r in rows)
 
 
@@ -388,6 +397,8 @@ def one_charge(a):
     t1, _ = run_production(model, settings, targets[len(targets) // 2:len(targets) // 2 + 1])
     n_rows = sum(len(rows) for rows in rb)
     n_ok_rows = sum(r.status == Status.OK for rows in rb for r in rows)
+    print(f"   production targets with every branch ok: {sum(all_branches_ok(rows) for rows in rb)}/{len(rb)} "
+          "(a target counts as converged when its dominant branch is ok)")
 
     print(f"\n{HEAD} {'err s':>9s} {'err rho':>9s} {'err mu':>9s}")
     print_table(rows_a, worst_a, rows_b, worst_b)
@@ -455,6 +466,8 @@ def demo(a):
         worst_b = np.maximum(worst_b, [abs(r.s / st - 1), abs(r.rho / rhot - 1) if use_rho else 0.0])
     n_rows = sum(len(rows) for rows in rb)
     n_ok_rows = sum(r.status == Status.OK for rows in rb for r in rows)
+    print(f"   production targets with every branch ok: {sum(all_branches_ok(rows) for rows in rb)}/{len(rb)} "
+          "(a target counts as converged when its dominant branch is ok)")
     est = max((r.error_estimate for rows in rb for r in rows if r.status == Status.OK), default=math.nan)
     print(f"\n{HEAD} {'diff s':>9s} {'diff rho':>9s}")
     print_table(rows_a, worst_a, rows_b, worst_b)

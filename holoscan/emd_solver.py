@@ -70,12 +70,14 @@ class EMDShooter:
         return o if np.all(np.isfinite(o)) else None
 
     def observe_many(self, Q, ss: ShootSettings, cnt: Counters | None = None, record: bool = False,
-                     brane: ScalarBrane | None = None, detail: dict | None = None) -> np.ndarray:
+                     brane: ScalarBrane | None = None, detail: dict | None = None,
+                     readout_check: float = 0.0) -> np.ndarray:
         """Observables ``(x, j, s_hat, rho_hat)`` at many horizon data ``Q`` (shape (B, 2)) in one
         batched integration (rows of NaN where a shot failed). The integration variable is the warp
         factor ``A`` itself, so every column ends exactly at ``A_end``. ``detail`` (a dict) receives
         per-shot arrays ``residual`` (field-equation residual and frame mismatch, when ``record``),
-        ``nfev`` and ``nsteps``."""
+        ``nfev`` and ``nsteps``; with ``readout_check > 0`` also ``early``: the observables read off on
+        the way, at ``A_end - readout_check`` (a check of the boundary read-out's truncation)."""
         brane = brane or self.brane
         Q = np.atleast_2d(np.asarray(Q, dtype=float))
         nb = len(Q)
@@ -94,7 +96,20 @@ class EMDShooter:
         def fun(y):
             return brane.rhs(None, y) / y[1]
 
-        res = dop853_batch(fun, yg[0], yg, brane.A_end, ss.rtol, monitor=(lambda y: brane.residual(None, y)) if record else None)
+        monitor = (lambda y: brane.residual(None, y)) if record else None
+        early = None
+        if detail is not None and readout_check > 0:
+            # two legs: read off at A_end - readout_check on the way (no extra steps), then at A_end
+            leg = dop853_batch(fun, yg[0], yg, brane.A_end - readout_check, ss.rtol, monitor=monitor)
+            early = brane.boundary_dimensionless_many(leg.y, self.kappa_sq)
+            res = dop853_batch(fun, np.full(yg.shape[1], brane.A_end - readout_check), leg.y, brane.A_end, ss.rtol,
+                               monitor=monitor)
+            res.ok &= leg.ok
+            res.nfev += leg.nfev
+            res.nsteps += leg.nsteps
+            res.residual = np.maximum(res.residual, leg.residual)
+        else:
+            res = dop853_batch(fun, yg[0], yg, brane.A_end, ss.rtol, monitor=monitor)
         if cnt is not None:
             cnt.nfev += int(res.nfev.sum())
             cnt.nsteps += int(res.nsteps.sum())
@@ -106,6 +121,11 @@ class EMDShooter:
         rows = np.column_stack([o["x"], o["j"], o["s_hat"], o["rho_hat"]])
         fine = res.ok & np.all(np.isfinite(rows), axis=1)
         out[cols[fine]] = rows[fine]
+        if early is not None:
+            ext = np.full((nb, 4), np.nan)
+            rows1 = np.column_stack([early["x"], early["j"], early["s_hat"], early["rho_hat"]])
+            ext[cols[fine]] = rows1[fine]
+            detail["early"] = ext
         if record:
             r = np.maximum(res.residual, o["frame_mismatch"])
             if cnt is not None and np.any(fine):

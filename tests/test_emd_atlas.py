@@ -59,29 +59,33 @@ def one_charge_rows(one_charge):
 
 
 def test_one_charge_both_branches_against_the_closed_form(one_charge_rows):
-    # bar: 1e-8 relative in s, rho on the stable branch (the accuracy bar), every row ok with
-    # its own estimate. The unstable branch is held to the 1e-6 of test_emd_onecharge.py and only
-    # where phi0 > -4.5: deeper in, the source read off the boundary drifts with where the
-    # integration stops (a known limitation of the shooting read-out at Delta = 2, shared by both
-    # methods and not caught by the verification shot; see the README)
+    # bar: 1e-8 relative in s, rho (the accuracy bar) on the stable branch, every stable row
+    # ok. Both branches: a row that says ok is within accept_error (1e-8) of the closed form, and
+    # every row's error estimate bounds its actual error. Deep on the unstable branch the boundary
+    # read-out at Delta = 2 drifts with where the shot stops; the read-out check must catch it there
+    # (those rows come back not converged, see the README).
     targets, results = one_charge_rows
-    worst = 0.0
+    worst, flagged = 0.0, 0
     for (T, mu), rows in zip(targets, results):
-        assert len(rows) == 2 and all(r.status is Status.OK and r.method == "atlas" for r in rows)
+        assert len(rows) == 2 and all(r.method == "atlas" for r in rows)
         stable = [r for r in rows if r.stability == "stable"]
         unstable = [r for r in rows if r.stability == "unstable"]
         assert len(stable) == 1 and len(unstable) == 1
+        assert stable[0].status is Status.OK
         for r, branch in ((stable[0], 0), (unstable[0], 1)):
             s0, rho0, _ = closed(T, mu, branch)
             err = max(abs(r.s / float(s0) - 1), abs(r.rho / float(rho0) - 1))
             if branch == 0:
                 worst = max(worst, err)
-                assert err < 1e-8
-            elif r.extra["horizon_phi0"] > -4.5:
-                assert err < 1e-6
-            assert 0 < r.error_estimate < 1e-8 and r.residual < 1e-8
+            assert err <= r.error_estimate
+            if r.status is Status.OK:
+                assert err < 1e-8 and r.residual < 1e-8
+            else:
+                flagged += 1
+                assert r.status is Status.NOT_CONVERGED and "estimated error" in r.message
             assert r.P == pytest.approx((T * r.s + mu * r.rho) / 4, rel=1e-14)
     assert worst < 1e-10, worst  # measured 7e-13
+    assert flagged > 0  # the deep unstable rows (phi0 < -3.5) are flagged, not passed off as ok
 
 
 def test_one_charge_chi2_against_the_closed_form(one_charge_rows):

@@ -55,10 +55,15 @@ def test_stable_and_unstable_branches_match_closed_form(model):
     T = 0.8
     for x in (0.5, 1.5, 2.1):
         rows = solve_point(model, T, x * T)
-        assert [r.status for r in rows] == [Status.OK, Status.OK], [r.message for r in rows]
+        assert len(rows) == 2
         by_s = sorted(rows, key=lambda r: -r.s)  # the stable branch has the larger entropy at fixed (T, mu)
+        # the stable branch is ok; the unstable one may be flagged (its read-out at Delta = 2 is less
+        # accurate at large |phi0|, test_emd_atlas.py), but its estimate must bound its error
+        assert by_s[0].status is Status.OK, by_s[0].message
+        assert by_s[1].status in (Status.OK, Status.NOT_CONVERGED), by_s[1].message
         for branch, r in enumerate(by_s):
             s, rho, chi2 = closed(T, x * T, branch)
+            assert abs(r.s / float(s) - 1) <= max(r.error_estimate, 1e-12)
             assert r.s == pytest.approx(s, rel=1e-6)
             assert r.rho == pytest.approx(rho, rel=1e-6)
             assert r.chi2 == pytest.approx(chi2, rel=1e-6)
