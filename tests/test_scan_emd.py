@@ -23,13 +23,17 @@ def test_one_charge_branches_through_the_workflow(scanned):
     df = df[(df.model_id == "1q") & (df["T"] == 1.0)]
     assert list(df["mu"]) == [0.5, 0.5, 1.5, 1.5, 2.5]
     assert list(df["branch"]) == [0, 1, 0, 1, 0]
-    assert list(df["status"]) == ["ok", "ok", "ok", "ok", "no solution"]
+    assert list(df["status"])[2:] == ["ok", "ok", "no solution"]
     for mu in (0.5, 1.5):
         rows = df[df.mu == mu].sort_values("s", ascending=False)
         assert list(rows["stability"]) == ["stable", "unstable"]
+        # the stable branch is ok; at mu/T = 0.5 the unstable one sits at phi0 ~ -4.3, where the
+        # read-out check at Delta = 2 may flag it (tests/test_emd_atlas.py): its estimate bounds its error
+        assert rows.iloc[0].status == "ok" and rows.iloc[1].status in ("ok", "not converged")
         for b, (_, r) in enumerate(rows.iterrows()):
             s, rho, _ = closed(1.0, mu, b)
             assert r.s == pytest.approx(s, rel=1e-6) and r.rho == pytest.approx(rho, rel=1e-6)
+            assert abs(r.s / float(s) - 1) <= max(r.error_estimate, 1e-12)
     assert "mu/T" in df.iloc[4]["message"]
 
 
@@ -50,12 +54,15 @@ def test_phase_tables_through_the_workflow(scanned):
     ph = phases.to_pandas()
     assert len(ph) == 12  # one row per grid point and model
     q = ph[ph.model_id == "1q"].sort_values(["T", "mu"])
-    assert list(q["status"]) == ["ok", "ok", "no solution"] * 2
+    # mu/T = 0.5: "incomplete" when the unstable branch is flagged by the read-out check (see above)
+    assert [st if st != "incomplete" else "ok" for st in q["status"]] == ["ok", "ok", "no solution"] * 2
+    assert set(q.status[q.mu == 0.5]) <= {"ok", "incomplete"}
     assert list(q["dominant_phase"]) == ["high-entropy", "high-entropy", ""] * 2
     pts = points.to_pandas()
-    for _, row in q[q.status == "ok"].iterrows():
+    for _, row in q[q.status.isin(["ok", "incomplete"])].iterrows():
         br = pts[(pts.model_id == "1q") & (pts["T"] == row["T"]) & (pts.mu == row.mu)]
-        assert list(row.branch_flag) == ["stable" if st == "stable" else "unstable" for st in br.stability]
+        assert list(row.branch_flag) == ["unknown" if ok != "ok" else ("stable" if st == "stable" else "unstable")
+                                         for st, ok in zip(br.stability, br.status)]
         assert row.Omega == min(br.Omega[br.stability == "stable"])
     assert set(ph[ph.model_id == "r"]["dominant_phase"]) == {"unique"}
     tr = trans.to_pandas()
