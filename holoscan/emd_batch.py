@@ -35,8 +35,7 @@ import time
 import numpy as np
 
 from .atlas.brane_map import U_MAX, BraneMap
-from .atlas.build import FLAG_NAMES
-from .emd_pressure import lobatto
+from .atlas.resolution import FLAG_NAMES
 from .emd_solver import family_curve
 from .result import PointResult, Status
 
@@ -356,4 +355,4 @@ def batch_solver(model, sh, settings) -> BatchSolver:
     return _SOLVERS[key]
 
 
-__all__ = ["BatchSolver", "batch_solver", "lobatto"]
+__all__ = ["BatchSolver", "batch_solver"]

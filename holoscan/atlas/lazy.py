@@ -2,7 +2,7 @@
 
 The domain is cut into a fixed grid of root cells; a cell is sampled on its Chebyshev nodes the
 first time a point inside it is needed, and split in half along every unresolved direction (see
-:mod:`holoscan.atlas.build` for the resolution test), recursively. Whether a cell is split depends
+:mod:`holoscan.atlas.resolution` for the resolution test), recursively. Whether a cell is split depends
 only on its own samples, so every cell, and so every value the atlas returns at a point, is the same
 whichever points were asked for first, in whichever process: results stay a function of the model
 and the solver settings alone.
@@ -11,12 +11,16 @@ from __future__ import annotations
 
 import numpy as np
 
-from .build import HOLE, RESOLVED, ROUGH, _tails, noise_plateau
+from .resolution import HOLE, RESOLVED, ROUGH, _tails, noise_plateau
 from .cheb import PatchSet, fit, nodes
 
 
 class LazyAtlas:
-    """Atlas of ``sample`` (see :func:`holoscan.atlas.build.build`) on ``domain``, built on demand."""
+    """Atlas of ``sample`` on ``domain``, built on demand.
+
+    ``sample(X0, X1)`` returns the functions at many points (an array (M, m), non-finite where a
+    sample failed); all cells new at one step are sampled on their ``n x n`` first-kind Chebyshev
+    nodes in one call (so a batched sampler runs once per step)."""
 
     def __init__(self, sample, domain, *, n: int, tol: float, absolute, initial=(8, 4),
                  min_width=(1e-2, 2e-3)):
