@@ -57,12 +57,8 @@ class BraneMap:
 
     def evaluate(self, c0, c1, truncate: int = 0):
         """Values and gradients of the atlas functions, and the leaf of each point."""
-        c0, c1 = np.atleast_1d(np.asarray(c0, float)), np.atleast_1d(np.asarray(c1, float))
-        p = self.atlas.patches.locate(c0, c1) if len(self.atlas.patches) else np.full(len(c0), -1)
-        miss = p < 0
-        if np.any(miss):
-            self.atlas.locate(c0[miss], c1[miss])      # build what is missing, then locate again
-        return self.atlas.evaluate(c0, c1, truncate)
+        return self.atlas.evaluate(np.atleast_1d(np.asarray(c0, float)), np.atleast_1d(np.asarray(c1, float)),
+                                   truncate)
 
     # -- physical quantities ------------------------------------------------------------------------
     def physical(self, c1, g, dg):

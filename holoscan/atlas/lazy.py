@@ -97,6 +97,14 @@ class LazyAtlas:
         a0, b0, a1, b1 = self.domain
         out = np.full(len(x0), -1, dtype=np.int64)
         inside = (x0 >= a0) & (x0 <= b0) & (x1 >= a1) & (x1 <= b1) & np.isfinite(x0) & np.isfinite(x1)
+        # points strictly inside a built leaf need no descent (leaves do not overlap, so the match is
+        # the leaf the descent would reach); points on or near a leaf's edge descend, which decides
+        # edges the same way whatever has been built
+        if self.leaf_bounds and np.any(inside):
+            hit = self._strictly_inside(x0, x1, inside)
+            found = hit >= 0
+            out[found] = np.where(self.flags(hit[found]) != HOLE, hit[found], -1)
+            inside &= ~found
         idx = np.flatnonzero(inside)
         keys = self._root_keys(x0[idx], x1[idx])
         bounds = {k: self._root_bounds(k) for k in set(keys)}
@@ -115,6 +123,20 @@ class LazyAtlas:
                 nk.append(ck)
                 ni.append(j)
             idx, keys = np.array(ni, dtype=np.int64), nk
+        return out
+
+    def _strictly_inside(self, x0, x1, mask, block: int = 4096) -> np.ndarray:
+        """Index of the built leaf each masked point lies strictly inside (by a margin of 1e-12 of
+        the leaf's width), -1 for the others."""
+        b = np.array(self.leaf_bounds)
+        m0, m1 = 1e-12 * (b[:, 1] - b[:, 0]), 1e-12 * (b[:, 3] - b[:, 2])
+        out = np.full(len(x0), -1, dtype=np.int64)
+        idx = np.flatnonzero(mask)
+        for s in range(0, len(idx), block):
+            j = idx[s:s + block]
+            a, c = x0[j, None], x1[j, None]
+            hit = (a > b[:, 0] + m0) & (a < b[:, 1] - m0) & (c > b[:, 2] + m1) & (c < b[:, 3] - m1)
+            out[j] = np.where(hit.any(axis=1), hit.argmax(axis=1), -1)
         return out
 
     # -- evaluation -------------------------------------------------------------------------------------
