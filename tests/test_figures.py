@@ -17,7 +17,7 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 import pytest
 
-from workflow_helpers import run, workspace
+from workflow_helpers import scanned_workspace
 
 pytest.importorskip("matplotlib")
 
@@ -39,9 +39,7 @@ MODELS = [("rn", "rn"), ("hhh", "charged-scalar")]
 
 @pytest.fixture(scope="module")
 def scan(tmp_path_factory):
-    ws = workspace(tmp_path_factory.mktemp("figs"), CFG)
-    run(ws)
-    return ws, ws / "results" / "figs"
+    return scanned_workspace(tmp_path_factory, CFG)
 
 
 @pytest.fixture(scope="module")

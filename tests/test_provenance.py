@@ -27,22 +27,16 @@ import pytest
 prov_model = pytest.importorskip("prov.model")
 
 import holoscan
-from workflow_helpers import run, snakemake_cmd, workspace
+from test_tables import CFG as TABLE_CFG
+from workflow_helpers import scanned_workspace, snakemake_cmd
 
-CFG = {
-    "scan": "pv",
-    "models": [
-        {"id": "a", "kind": "rn", "d": 4, "kappa_sq": 0.5, "e_sq": 2.0},
-        # T = 1e-300 cannot be reached by shooting: one failed row, so the status counts are not all ok
-        {"id": "s", "kind": "rn", "d": 3, "kappa_sq": 1.0, "e_sq": 1.0, "solver": {"method": "shooting"},
-         "grid": {"T": [1e-300, 0.5], "mu": [1.0]}},
-        # a model with a lines job (condensation onset): lines files, transitions
-        {"id": "sc", "kind": "charged-scalar", "d": 3, "m_sq": -1.25, "delta": 2.5, "q": 3.0, "probe": True,
-         "grid": {"T": [0.05, 0.1], "mu": [1.0]}},
-    ],
-    "grid": {"T": {"min": 0.2, "max": 1.0, "num": 3}, "mu": [-1.0, 0.0, 1.0]},
-    "points_per_job": 4,
-}
+# the two rn models of test_tables.py (one of them with a failed row, so the status counts are not
+# all ok) and a model with a lines job (condensation onset): lines files, transitions
+CFG = {**TABLE_CFG, "scan": "pv", "models": [
+    *TABLE_CFG["models"],
+    {"id": "sc", "kind": "charged-scalar", "d": 3, "m_sq": -1.25, "delta": 2.5, "q": 3.0, "probe": True,
+     "grid": {"T": [0.05, 0.1], "mu": [1.0]}},
+]}
 # record kinds of the PROV-JSON submission (section 2)
 PROV_JSON_KINDS = {"prefix", "entity", "activity", "agent", "wasGeneratedBy", "used", "wasInformedBy",
                    "wasStartedBy", "wasEndedBy", "wasInvalidatedBy", "wasDerivedFrom", "wasAttributedTo",
@@ -58,9 +52,7 @@ def holoscan_cli(*args, cwd=None):
 
 @pytest.fixture(scope="module")
 def scan(tmp_path_factory):
-    ws = workspace(tmp_path_factory.mktemp("prov"), CFG)
-    run(ws)
-    return ws, ws / "results" / "pv"
+    return scanned_workspace(tmp_path_factory, CFG)
 
 
 @pytest.fixture(scope="module")

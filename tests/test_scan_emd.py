@@ -4,7 +4,7 @@ Sabra 1999, Nucl. Phys. B 553, 317; DeWolfe, Gubser & Rosen 2011, Phys. Rev. D 8
 import pytest
 
 from test_emd_onecharge import ONE_CHARGE, closed
-from workflow_helpers import run, table, workspace
+from workflow_helpers import scanned_workspace, table
 
 # one scan serves every test of this file (a workflow run of a dilaton family costs about a minute)
 CONFIG = {"scan": "q", "models": [dict(ONE_CHARGE), {"id": "r", "kind": "rn", "d": 4, "kappa_sq": 0.5, "e_sq": 2.0}],
@@ -13,9 +13,7 @@ CONFIG = {"scan": "q", "models": [dict(ONE_CHARGE), {"id": "r", "kind": "rn", "d
 
 @pytest.fixture(scope="module")
 def scanned(tmp_path_factory):
-    ws = workspace(tmp_path_factory.mktemp("emdscan"), CONFIG)
-    run(ws)
-    return ws
+    return scanned_workspace(tmp_path_factory, CONFIG)[0]
 
 
 def test_one_charge_branches_through_the_workflow(scanned):

@@ -46,6 +46,14 @@ def run(ws: Path, *extra, env=None, timeout=600, check=True):
     return p, start
 
 
+def scanned_workspace(tmp_path_factory, config: dict) -> tuple[Path, Path]:
+    """A workspace for ``config`` in a fresh temporary folder, run to completion once (for a
+    module-scoped fixture); returns (workspace, its results/<scan> folder)."""
+    ws = workspace(tmp_path_factory.mktemp(config["scan"]), config)
+    run(ws)
+    return ws, ws / "results" / config["scan"]
+
+
 def run_and_kill(ws: Path, after: float, env=None) -> bool:
     """Start the workflow and SIGKILL its whole process group after ``after`` seconds.
 
