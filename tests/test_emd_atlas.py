@@ -124,8 +124,8 @@ def test_demo_matches_the_point_by_point_solver(demo, T, mu):
 
 
 def test_a_corrupted_atlas_is_caught_by_the_verification_shot(demo):
-    # the per-point error estimate is evidence, not decoration: perturb the atlas (log s_hat) by 1e-6
-    # on the leaf holding the root, and the direct shot at the root must expose it
+    # the per-point error estimate is evidence, not decoration (common practice, no source): perturb
+    # the atlas (log s_hat) by 1e-6 on the leaf holding the root; the direct shot must expose it
     V, f = demo.couplings()
     solver = BatchSolver(demo, _shooter(demo, V, f), SolverSettings().with_method("atlas"))
     (good,) = solver.solve(np.array([0.25]), np.array([0.3]))[0]
@@ -140,8 +140,9 @@ def test_a_corrupted_atlas_is_caught_by_the_verification_shot(demo):
 
 
 def test_values_do_not_depend_on_the_batch(demo):
-    # the subdivision is canonical: a point solved alone in a fresh atlas and within a batch in
-    # another fresh atlas gets the same numbers (to rounding of the batched arithmetic)
+    # the subdivision is canonical (reproducibility; common practice, no source): a point solved alone
+    # in a fresh atlas and within a batch in another gets the same numbers (to rounding of the
+    # batched arithmetic)
     V, f = demo.couplings()
     settings = SolverSettings().with_method("atlas")
     alone = BatchSolver(demo, _shooter(demo, V, f), settings).solve(np.array([0.21]), np.array([0.55]))[0]
@@ -155,7 +156,8 @@ def test_values_do_not_depend_on_the_batch(demo):
 
 
 def test_a_brane_beyond_the_atlas_goes_to_the_point_solver(demo):
-    # mu/T = 40 at T = 0.1: the brane sits at u ~ 0.90, outside the atlas (u <= 0.9)
+    # our own routing rule (no source): mu/T = 40 at T = 0.1, the brane sits at u ~ 0.90, outside the
+    # atlas (u <= 0.9), so the point solver takes it
     rows = solve_point(demo, 0.1, 4.0)
     assert rows and all(r.method == "shooting" for r in rows)
     assert rows[0].status is Status.OK and rows[0].extra["horizon_u"] > 0.9
