@@ -1,0 +1,240 @@
+"""Independent reference solver for Einstein-Maxwell-dilaton black branes in AdS5 (boundary d = 4).
+
+Action (L = 1): S = 1/(2 kappa^2) int d^5x sqrt(-g) [R - (1/2)(d phi)^2 - V(phi) - f(phi) F^2/4],
+A = A_t dt. Gauge (boundary at z = 0, horizon at z = z_h = 1 during the solve):
+
+    ds^2 = (1/z^2) [ -F(z) e^{-chi(z)} dt^2 + dz^2 / F(z) + dx_3^2 ],   A_t = Phi(z),  F(1) = 0.
+
+Derivation summary (areal radius r = 1/z, g = F/z^2; mostly plus):
+* G^r_r - G^t_t = -3 g chi_r/(2r) for this ansatz, and T^r_r - T^t_t = g phi_r^2/2 (the Maxwell part
+  cancels), so chi_r = -r phi_r^2/3, i.e. chi' = z phi'^2/3 (' = d/dz).
+* G^t_t = (3/(2 r^3)) (r^2 g)_r = T^t_t = -g phi_r^2/4 - V/2 - f e^chi Phi_r^2/4 gives
+  z F' = 4F + V/3 + z^2 F phi'^2/6 + Q^2 z^6/(6 f).
+* Maxwell: d_z(sqrt(-g) f F^{zt}) = 0 with sqrt(-g) = e^{-chi/2}/z^5: Q = -e^{chi/2} f Phi'/z is constant,
+  Phi' = -Q z e^{-chi/2}/f.
+* Scalar: box phi = V' + f' F^2/4, F^2 = -2 z^4 e^chi Phi'^2:
+  z^2 F phi'' + z^2 (F' - 3F/z - chi' F/2) phi' - V'(phi) + f'(phi) Q^2 z^6/(2 f^2) = 0.
+  Near z = 0: phi ~ J z^(4-Delta) + v z^Delta with Delta(Delta-4) = V''(0).
+* G^t_t - G^x_x = T^t_t - T^x_x gives the radially conserved (Noether) quantity
+  N = -z^-3 e^{chi/2} (F e^{-chi})' - Q Phi: at the horizon N = 4 pi T e^{...} = 2 kappa^2 T s, at the
+  boundary 2 kappa^2 (epsilon + P) - Q mu, whence epsilon + P = T s + mu rho (used as a check).
+
+Read-out (z_h = 1, chi(1) = 0 during the integration, chi(0) = chi_b):
+  T = |F'(1)| e^{chi_b/2}/(4 pi), mu = e^{chi_b/2} int_0^1 Q z e^{-chi/2}/f dz, s = 2 pi/kappa^2,
+  rho = Q/(2 kappa^2) (normalised on RN-AdS5: rho = dP/dmu), and for 2 < Delta < 4 the pressure by
+  the trace Ward identity epsilon - 3P = -(4 - Delta) J <O> with <O> = dP/dJ = (2 Delta - 4) v/(2 kappa^2)
+  (holographic renormalisation: de Haro, Skenderis & Solodukhin 2001, Commun. Math. Phys. 217, 595;
+  Bianchi, Freedman & Skenderis 2002, Nucl. Phys. B 631, 159; for non-integer 4/(4 - Delta) there is
+  no finite counterterm), combined with epsilon + P = T s + mu rho:
+      P = (T s + mu rho + (4 - Delta)(2 Delta - 4) J v/(2 kappa^2))/4.
+  The stress tensor read from the metric falloff gives the same P once epsilon + P is read at the
+  boundary as (-4 G4 + 4 X4)/(2 kappa^2) (G4, X4 the z^4 coefficients of F - 1 and chi - chi_b);
+  the difference of the two is the Smarr residual, reported as a check of the boundary read-out.
+  J, v and G4 come from matching the integrated solution at z_m (chosen so that |J| z_m^alpha ~ 0.13)
+  to the near-boundary series on the lattice of exponents i(4-Delta) + j Delta + 2k, computed to
+  exponent 13 by a recursion (series.BoundaryLattice): reading v straight from phi at small z would
+  lose all digits to the source's nonlinear terms.
+For Delta = 2 (unsourced one-charge model) the source is the z^2 log z coefficient, read from
+(theta phi - 2 phi)/z^2 at two small z with Richardson extrapolation in z^2 (theta = z d/dz).
+
+Scaling z -> lambda z maps solutions with z_h = 1 to any z_h; sourced results are given in units
+J^(1/(4-Delta)) = 1; unsourced results depend on mu/T only.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy.integrate import solve_ivp
+
+from .series import BoundaryLattice, horizon_series, taylor
+
+
+@dataclass
+class Model:
+    V: object
+    dV: object
+    d2V: object
+    f: object
+    df: object
+    d2f: object
+    kappa_sq: float = 1.0
+    sourced: bool = True
+    _cache: dict = field(default_factory=dict, repr=False)
+
+    def __post_init__(self):
+        self.m2 = float(np.real(self.d2V(0.0)))
+        self.Delta = 2.0 + math.sqrt(max(4.0 + self.m2, 0.0))
+        self.alpha = 4.0 - self.Delta
+
+    def lattice(self, emax=13.0):
+        key = ("lattice", emax)
+        if key not in self._cache:
+            self._cache[key] = BoundaryLattice(self, emax)
+        return self._cache[key]
+
+    def Qmax(self, phi_h):
+        return math.sqrt(max(-2.0 * float(np.real(self.V(phi_h))) * float(np.real(self.f(phi_h))), 0.0))
+
+
+def _rhs(model, Q):
+    V, dV, f, df = model.V, model.dV, model.f, model.df
+
+    def rhs(y, Y):
+        phi, psi, F, chi, M = Y
+        z = math.exp(y)
+        fv = float(f(phi))
+        z6 = z ** 6
+        thF = 4 * F + float(V(phi)) / 3 + F * psi * psi / 6 + Q * Q * z6 / (6 * fv)
+        thchi = psi * psi / 3
+        thpsi = (4 * F * psi - thF * psi + 0.5 * thchi * F * psi + float(dV(phi))
+                 - float(df(phi)) * Q * Q * z6 / (2 * fv * fv)) / F
+        thM = -Q * z * z * math.exp(-0.5 * chi) / fv
+        return [psi, thpsi, thF, thchi, thM]
+
+    return rhs
+
+
+def _horizon_start(model, phi_h, Q, delta, order):
+    Fs, chis, phis = horizon_series(model, phi_h, Q, order)
+    x = delta
+    pw = x ** np.arange(len(Fs))
+    dpw = np.r_[0.0, np.arange(1, len(Fs)) * x ** np.arange(len(Fs) - 1)]
+    z = 1.0 - x
+    phi = phis @ pw
+    psi = -z * (phis @ dpw)          # theta phi = z dphi/dz = -z dphi/dx
+    F = Fs @ pw
+    chi = chis @ pw
+    # M(1 - delta) = int_{1-delta}^1 Q s e^{-chi/2}/f ds by 8-point Gauss-Legendre on the series
+    gx, gw = np.polynomial.legendre.leggauss(8)
+    xs = 0.5 * delta * (gx + 1.0)
+    vals = []
+    for xi in xs:
+        p = xi ** np.arange(len(Fs))
+        vals.append(Q * (1.0 - xi) * math.exp(-0.5 * (chis @ p)) / float(model.f(phis @ p)))
+    M = 0.5 * delta * float(np.dot(gw, vals))
+    return np.array([phi, psi, F, chi, M]), Fs[1]
+
+
+def _integrate(model, Q, Y0, y0, y1, rtol):
+    sol = solve_ivp(_rhs(model, Q), (y0, y1), Y0, method="DOP853", rtol=rtol, atol=1e-300)
+    if not sol.success:
+        raise RuntimeError(sol.message)
+    return sol.y[:, -1], sol.nfev
+
+
+def shoot(model: Model, phi_h: float, Q: float, delta: float = 0.01, order: int = 14, rtol: float = 1e-12,
+          zm_scale: float = 0.1, emax: float = 13.0, fast: bool = False) -> dict:
+    """One solve at z_h = 1 from horizon data (phi_h, Q); boundary data in the gauge chi(0) = 0."""
+    if fast:
+        rtol, emax, order, delta = max(rtol, 1e-9), min(emax, 9.0), min(order, 8), max(delta, 0.02)
+    Y0, F1 = _horizon_start(model, phi_h, Q, delta, order)
+    y0 = math.log(1.0 - delta)
+    out = dict(phi_h=phi_h, Q=Q, F1=F1, nfev=0)
+    if abs(model.Delta - 2.0) < 1e-12:
+        return _readout_delta2(model, Q, Y0, y0, rtol, out)
+    # rough J from a cheap pass (decides the matching point)
+    Yc, n = _integrate(model, Q, Y0, y0, math.log(1e-3), 1e-6)
+    Jr = Yc[0] / 1e-3 ** model.alpha
+    out["nfev"] += n
+    zm = min(zm_scale, zm_scale * abs(Jr) ** (-1.0 / model.alpha)) if Jr != 0 else zm_scale
+    if phi_h == 0.0:
+        zm = zm_scale
+    Y, n = _integrate(model, Q, Y0, y0, math.log(zm), rtol)
+    out["nfev"] += n
+    lat = model.lattice(emax)
+    J, v, G4 = _match(lat, Y, zm, Q, Jr)
+    phi_c, G_c, X_c = lat.solve(J, v, G4, Q)
+    chi_b = Y[3] - lat.evaluate(X_c, zm)
+    # mu = e^{chi_b/2} [M(zm) + e^{-chi_b/2} int_0^zm Q s e^{-X/2}/f ds]
+    expX = _exp_series(lat, X_c, -0.5)
+    ifs = sum(lat.ic_[n_] * p for n_, p in enumerate(lat.powers(phi_c)))
+    tail = Q * lat.int_z_times(lat.mul(expX, ifs), zm)
+    mu = math.exp(0.5 * chi_b) * Y[4] + tail
+    T = F1 * math.exp(0.5 * chi_b) / (4 * math.pi)
+    out.update(J=J, v=v, G4=G4, X4=X_c[lat.i4], chi_b=chi_b, T=T, mu=mu, zm=zm, gap4=lat.gap4)
+    return out
+
+
+def _exp_series(lat, X, c):
+    """exp(c X) as a lattice series (X has no constant term)."""
+    out = np.zeros(lat.N); out[lat.i0] = 1.0
+    term = out.copy()
+    for n in range(1, int(lat.E[-1] / (2 * lat.alpha)) + 2):
+        term = lat.mul(term, X) * (c / n)
+        out = out + term
+    return out
+
+
+def _match(lat, Y, zm, Q, Jr):
+    """Solve series(z_m) = integrated (phi, theta phi, F) for (J, v, G4) by Newton."""
+    a, D = lat.alpha, lat.Delta
+    za, zD = zm ** a, zm ** D
+    A = np.array([[za, zD], [a * za, D * zD]])
+    J, v = np.linalg.solve(A, Y[:2])
+    G4 = (Y[2] - 1.0 - a * J * J / 6 * zm ** (2 * a)) / zm ** 4
+    p = np.array([J, v, G4])
+    scale = np.array([abs(Y[0]), abs(Y[1]), 1.0]) + 1e-300
+
+    def resid(p):
+        ph, G, X = lat.solve(p[0], p[1], p[2], Q)
+        return (np.array([lat.evaluate(ph, zm), lat.evaluate(ph, zm, True), 1.0 + lat.evaluate(G, zm)]) - Y[:3]) / scale
+
+    r = resid(p)
+    Jac = None
+    for it in range(30):
+        if Jac is None or it % 3 == 0:
+            Jac = np.empty((3, 3))
+            for k in range(3):
+                h = 1e-7 * max(abs(p[k]), [abs(p[0]) * 1e-3 + 1e-12, abs(Y[0]) / zD * 1e-3 + 1e-12, 1e-6][k])
+                pk = p.copy(); pk[k] += h
+                Jac[:, k] = (resid(pk) - r) / h
+        dp = np.linalg.solve(Jac, -r)
+        p = p + dp
+        r = resid(p)
+        if np.max(np.abs(r)) < 3e-16 or np.all(np.abs(dp) <= 1e-15 * np.abs(p) + 1e-300):
+            break
+    return p
+
+
+def _readout_delta2(model, Q, Y0, y0, rtol, out):
+    """Delta = 2: phi = z^2 (J log z + v) + ...; J by Richardson in z^2 from two small z."""
+    z1 = 2e-3
+    Ya, n1 = _integrate(model, Q, Y0, y0, math.log(z1), rtol)
+    Yb, n2 = _integrate(model, Q, Ya, math.log(z1), math.log(z1 / 2), rtol)
+    out["nfev"] += n1 + n2
+    Ja = (Ya[1] - 2 * Ya[0]) / z1 ** 2
+    Jb = (Yb[1] - 2 * Yb[0]) / (z1 / 2) ** 2
+    J = (4 * Jb - Ja) / 3
+    z = z1 / 2
+    v = (Yb[0] / z ** 2 - J * math.log(z))
+    X = v * v * z ** 4 / 3      # chi - chi_b ~ (2 v z^2)^2 / 12
+    chi_b = Yb[3] - X
+    tail = Q * z * z / 2 * math.exp(-0.5 * chi_b) / float(model.f(Yb[0]))
+    mu = math.exp(0.5 * chi_b) * (Yb[4] + tail)
+    T = out["F1"] * math.exp(0.5 * chi_b) / (4 * math.pi)
+    G4 = (Yb[2] - 1.0) / z ** 4
+    out.update(J=J, v=v, G4=G4, X4=0.0, chi_b=chi_b, T=T, mu=mu, zm=z, gap4=0.0)
+    return out
+
+
+def thermo_zh1(model: Model, sh: dict) -> dict:
+    """Thermodynamics of one shot in z_h = 1 units, then in source units (sourced) or per T (unsourced)."""
+    k2 = model.kappa_sq
+    T, mu = sh["T"], sh["mu"]
+    s = 2 * math.pi / k2
+    rho = sh["Q"] / (2 * k2)
+    ts = T * s + mu * rho
+    if model.sourced:
+        a, D = model.alpha, model.Delta
+        Jv = sh["J"] * sh["v"]
+        P = (ts + a * (2 * D - 4) * Jv / (2 * k2)) / 4
+        P_metric = (-sh["G4"] + 4 * sh["X4"] - a * Jv) / (2 * k2)
+        lam = abs(sh["J"]) ** (1.0 / a)
+        return dict(T=T / lam, mu=mu / lam, s=s / lam ** 3, rho=rho / lam ** 3, P=P / lam ** 4,
+                    epsilon=(ts - P) / lam ** 4, P_metric=P_metric / lam ** 4,
+                    smarr=((-4 * sh["G4"] + 4 * sh["X4"]) / (2 * k2) - ts) / ts, J=sh["J"])
+    P = ts / 4
+    return dict(T=T, mu=mu, s=s, rho=rho, P=P, epsilon=3 * P, P_metric=(-sh["G4"]) / (2 * k2), smarr=0.0,
+                J=sh["J"])
