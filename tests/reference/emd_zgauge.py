@@ -125,7 +125,7 @@ def _integrate(model, Q, Y0, y0, y1, rtol):
 
 
 def shoot(model: Model, phi_h: float, Q: float, delta: float = 0.01, order: int = 14, rtol: float = 1e-12,
-          zm_scale: float = 0.1, emax: float = 13.0, fast: bool = False) -> dict:
+          zm_scale: float = 0.1, emax: float = 13.0, fast: bool = False, zm: float | None = None) -> dict:
     """One solve at z_h = 1 from horizon data (phi_h, Q); boundary data in the gauge chi(0) = 0."""
     if fast:
         rtol, emax, order, delta = max(rtol, 1e-9), min(emax, 9.0), min(order, 8), max(delta, 0.02)
@@ -134,13 +134,15 @@ def shoot(model: Model, phi_h: float, Q: float, delta: float = 0.01, order: int 
     out = dict(phi_h=phi_h, Q=Q, F1=F1, nfev=0)
     if abs(model.Delta - 2.0) < 1e-12:
         return _readout_delta2(model, Q, Y0, y0, rtol, out)
-    # rough J from a cheap pass (decides the matching point)
-    Yc, n = _integrate(model, Q, Y0, y0, math.log(1e-3), 1e-6)
-    Jr = Yc[0] / 1e-3 ** model.alpha
-    out["nfev"] += n
-    zm = min(zm_scale, zm_scale * abs(Jr) ** (-1.0 / model.alpha)) if Jr != 0 else zm_scale
-    if phi_h == 0.0:
-        zm = zm_scale
+    # rough J from a cheap pass (decides the matching point) unless the matching point is given
+    Jr = None
+    if zm is None:
+        Yc, n = _integrate(model, Q, Y0, y0, math.log(1e-3), 1e-6)
+        Jr = Yc[0] / 1e-3 ** model.alpha
+        out["nfev"] += n
+        zm = min(zm_scale, zm_scale * abs(Jr) ** (-1.0 / model.alpha)) if Jr != 0 else zm_scale
+        if phi_h == 0.0:
+            zm = zm_scale
     Y, n = _integrate(model, Q, Y0, y0, math.log(zm), rtol)
     out["nfev"] += n
     lat = model.lattice(emax)
@@ -238,3 +240,252 @@ def thermo_zh1(model: Model, sh: dict) -> dict:
     P = ts / 4
     return dict(T=T, mu=mu, s=s, rho=rho, P=P, epsilon=3 * P, P_metric=(-sh["G4"]) / (2 * k2), smarr=0.0,
                 J=sh["J"])
+
+
+# ---------------------------------------------------------------------------------------------
+# Targeted solves: every branch at a given (T, mu)
+# ---------------------------------------------------------------------------------------------
+
+ACCURATE = dict()                                     # default shot settings
+VARIANT = dict(delta=0.02, order=12, zm_scale=0.07, emax=15.0)   # a second set of every numerical choice
+
+
+def _obs(model, phi_h, u, **kw):
+    sh = shoot(model, phi_h, u * model.Qmax(phi_h), **kw)
+    th = thermo_zh1(model, sh)
+    th["phi_h"], th["u"], th["zm"] = phi_h, u, sh["zm"]
+    return th
+
+
+def scan(model, phi_range=(0.05, 8.0), n_phi=40, u_max=0.95, n_u=16):
+    """Coarse map of horizon data (phi_h, u = Q/Q_max) to (T, mu) in source units (fast shots)."""
+    key = ("scan", phi_range, n_phi, u_max, n_u)
+    if key not in model._cache:
+        ph = np.geomspace(*phi_range, n_phi)
+        us = np.linspace(0.0, u_max, n_u)
+        TT = np.empty((n_phi, n_u)); MM = np.empty((n_phi, n_u))
+        with np.errstate(all="ignore"):
+            for i, p in enumerate(ph):
+                for j, u in enumerate(us):
+                    try:
+                        th = _obs(model, p, u, fast=True)
+                        TT[i, j], MM[i, j] = th["T"], th["mu"]
+                    except Exception:
+                        TT[i, j] = MM[i, j] = np.nan
+        model._cache[key] = (ph, us, TT, MM)
+    return model._cache[key]
+
+
+def _seeds(model, T, mu, scan_kw):
+    ph, us, TT, MM = scan(model, **(scan_kw or {}))
+    seeds = []
+    if mu == 0.0:
+        t = TT[:, 0]
+        for i in range(len(ph) - 1):
+            if np.isfinite(t[i]) and np.isfinite(t[i + 1]) and (t[i] - T) * (t[i + 1] - T) <= 0:
+                w = (T - t[i]) / (t[i + 1] - t[i]) if t[i + 1] != t[i] else 0.0
+                seeds.append((ph[i] + w * (ph[i + 1] - ph[i]), 0.0))
+        return seeds
+    for i in range(len(ph) - 1):
+        for j in range(len(us) - 1):
+            for tri in (((i, j), (i + 1, j), (i, j + 1)), ((i + 1, j + 1), (i, j + 1), (i + 1, j))):
+                P = np.array([[TT[a], MM[a]] for a in tri])
+                H = np.array([[ph[a[0]], us[a[1]]] for a in tri])
+                if not np.all(np.isfinite(P)):
+                    continue
+                M = np.array([P[1] - P[0], P[2] - P[0]]).T
+                try:
+                    l1, l2 = np.linalg.solve(M, np.array([T, mu]) - P[0])
+                except np.linalg.LinAlgError:
+                    continue
+                if min(l1, l2, 1 - l1 - l2) > -0.25:
+                    seeds.append(tuple(H[0] + l1 * (H[1] - H[0]) + l2 * (H[2] - H[0])))
+    return seeds
+
+
+def _newton(model, T, mu, p0, tol=1e-13, maxit=25):
+    x = np.array(p0, float)
+    oned = mu == 0.0
+    if oned:
+        x[1] = 0.0
+    target = np.array([T, mu])
+    sc = np.array([T, max(abs(mu), T)])
+    for it in range(maxit):
+        th = _obs(model, x[0], x[1])
+        r = (np.array([th["T"], th["mu"]]) - target) / sc
+        if np.max(np.abs(r)) < tol:
+            return x, th, it
+        h = 1e-6 * max(1.0, abs(x[0]))
+        a = _obs(model, x[0] + h, x[1])
+        if oned:
+            d = ((a["T"] - th["T"]) / h) / sc[0]
+            step = np.array([-r[0] / d, 0.0])
+        else:
+            b = _obs(model, x[0], x[1] + 1e-6)
+            Jm = np.array([[(a["T"] - th["T"]) / h, (b["T"] - th["T"]) / 1e-6],
+                           [(a["mu"] - th["mu"]) / h, (b["mu"] - th["mu"]) / 1e-6]]) / sc[:, None]
+            step = np.linalg.solve(Jm, -r)
+        lim = 0.3 * max(1.0, abs(x[0]))
+        if abs(step[0]) > lim:
+            step *= lim / abs(step[0])
+        x = x + step
+        if not (0.0 < x[0] < 40.0) or not (-0.999 < x[1] < 0.999):
+            raise RuntimeError("Newton left the horizon-data domain")
+    raise RuntimeError("Newton did not converge")
+
+
+def _derivatives(model, x, zm, hphi=None, hu=None):
+    """d(T, mu, s, rho)/d(phi_h, u) by central differences at steps h, h/2, h/4 (one matching point for
+    all shots), Richardson-extrapolated twice; the error is the difference of the two extrapolations."""
+    hphi = hphi or 0.01 * max(1.0, abs(x[0]))
+    hu = hu or 0.01
+    keys = ("T", "mu", "s", "rho")
+    D, E = np.empty((4, 2)), np.empty((4, 2))
+    for k, h in enumerate((hphi, hu)):
+        c = []
+        for m_ in (1.0, 0.5, 0.25):
+            e = np.zeros(2); e[k] = m_ * h
+            a, b = _obs(model, *(x + e), zm=zm), _obs(model, *(x - e), zm=zm)
+            c.append(np.array([(a[q] - b[q]) / (2 * m_ * h) for q in keys]))
+        r1, r2 = (4 * c[1] - c[0]) / 3, (4 * c[2] - c[1]) / 3
+        D[:, k] = (16 * r2 - r1) / 15
+        E[:, k] = np.abs(r2 - r1) / 15 + np.abs(D[:, k] - r2)
+    return D, E
+
+
+def _response(D, s, rho, T, mu):
+    A, B = D[:2], D[2:]
+    G = B @ np.linalg.inv(A)       # [[s_T, s_mu], [rho_T, rho_mu]]
+    chi2 = G[1, 1]
+    # direction in (T, mu) along which s/rho is constant: rho ds - s drho = 0
+    c = rho * G[0] - s * G[1]
+    d = np.array([-c[1], c[0]]) if np.any(c) else np.array([1.0, 0.0])
+    ds, drho = G @ d
+    cs2 = (s * d[0] + rho * d[1]) / (T * ds + mu * drho)
+    return chi2, cs2, G
+
+
+def vacuum_pressure(model, phi_h=15.0):
+    """Stress-tensor pressure at mu = 0 as T -> 0 (deep horizon scalar); its spread over numerical choices."""
+    key = ("pvac", phi_h)
+    if key not in model._cache:
+        vals = [_obs(model, phi_h, 0.0, **kw) for kw in (dict(), dict(rtol=1e-13), VARIANT, dict(zm_scale=0.13))]
+        P = np.array([v["P"] for v in vals])
+        tail = vals[0]["s"] * vals[0]["T"]
+        model._cache[key] = dict(P_vac=float(np.median(P)), spread=float(np.ptp(P)), sT=float(tail),
+                                 T=float(vals[0]["T"]))
+    return model._cache[key]
+
+
+def solve(model: Model, T: float, mu: float, scan_kw=None, vacuum_phi_h=15.0) -> list[dict]:
+    """All branches at (T, mu) of a sourced model (source units). Pressure: stress tensor P_stress and
+    P = P_stress - P_vac (P -> 0 as T -> 0 at mu = 0)."""
+    if not model.sourced:
+        return solve_unsourced(model, T, mu)
+    sign = 1.0 if mu >= 0 else -1.0
+    mu = abs(mu)
+    roots = []
+    for seed in _seeds(model, T, mu, scan_kw):
+        try:
+            x, th, it = _newton(model, T, mu, seed)
+        except (RuntimeError, np.linalg.LinAlgError, ValueError):
+            continue
+        if all(abs(x[0] - r[0][0]) > 1e-7 * max(1, x[0]) or abs(x[1] - r[0][1]) > 1e-7 for r in roots):
+            roots.append((x, th, it))
+    pv = vacuum_pressure(model, vacuum_phi_h)
+    out = []
+    for x, th, it in sorted(roots, key=lambda r: r[0][0]):
+        D, Dd = _derivatives(model, x, th['zm'])
+        chi2, cs2, G = _response(D, th["s"], th["rho"], th["T"], th["mu"])
+        # hand-over / read-out independence: the same horizon data with every numerical choice changed
+        alt = _obs(model, x[0], x[1], **VARIANT)
+        dT, dmu = alt["T"] - th["T"], alt["mu"] - th["mu"]
+        err = {}
+        ds, drho = np.array([alt["s"] - th["s"], alt["rho"] - th["rho"]]) - G @ np.array([dT, dmu])
+        dP = (alt["P"] - th["P"]) - th["s"] * dT - th["rho"] * dmu
+        P = th["P"] - pv["P_vac"]
+        eps = th["epsilon"] + pv["P_vac"]
+        floor = 1e-14
+        err["s"] = abs(ds) / th["s"] + floor
+        err["rho"] = abs(drho) / max(abs(th["rho"]), 1e-3 * th["s"]) + floor
+        err["P_stress"] = abs(dP) / abs(th["P"]) + floor
+        err["P"] = (abs(dP) + pv["spread"] + pv["sT"]) / abs(P) + floor
+        err["epsilon"] = (abs(dP) + abs(th["T"] * th["s"] * err["s"]) + pv["spread"] + pv["sT"]) / abs(eps) + floor
+        # derivative errors: Richardson remainder propagated through the Jacobian, relative
+        Dp = D + Dd
+        c2b, cs2b, _ = _response(Dp, th["s"], th["rho"], th["T"], th["mu"])
+        Dm = D - Dd
+        c2m, cs2m, _ = _response(Dm, th["s"], th["rho"], th["T"], th["mu"])
+        err["chi2"] = max(abs(c2b - chi2), abs(c2m - chi2)) / max(abs(chi2), 1e-3 * th["s"]) + 1e-12
+        err["cs2"] = max(abs(cs2b - cs2), abs(cs2m - cs2)) / abs(cs2) + 1e-12
+        out.append(dict(T=th["T"], mu=sign * th["mu"], s=th["s"], rho=sign * th["rho"], P=P, epsilon=eps,
+                        P_stress=th["P"], epsilon_stress=th["epsilon"], P_vac=pv["P_vac"],
+                        P_metric=th["P_metric"] - pv["P_vac"], chi2=chi2, cs2=cs2, phi_h=x[0], u=sign * x[1],
+                        error=err, newton_iterations=it))
+    return out
+
+
+# ---------------------------------------------------------------------------------------------
+# Unsourced (conformal) models: one family of branes parametrised by phi_h, J(phi_h, Q) = 0
+# ---------------------------------------------------------------------------------------------
+
+def unsourced_point(model, phi_h, **kw):
+    """The brane with zero source at horizon scalar phi_h: mu/T, s/T^3, rho/T^3 (and u = Q/Q_max)."""
+    from scipy.optimize import brentq
+    Qm = model.Qmax(phi_h)
+
+    def J(u):
+        return shoot(model, phi_h, u * Qm, **kw)["J"]
+
+    grid = np.linspace(0.02, 0.98, 13)
+    vals = [J(u) for u in grid]
+    for a, b, ja, jb in zip(grid[:-1], grid[1:], vals[:-1], vals[1:]):
+        if ja * jb <= 0:
+            u = brentq(J, a, b, xtol=1e-15, rtol=4e-16)
+            sh = shoot(model, phi_h, u * Qm, **kw)
+            th = thermo_zh1(model, sh)
+            T = th["T"]
+            return dict(x=th["mu"] / T, s_hat=th["s"] / T ** 3, rho_hat=th["rho"] / T ** 3, u=u, phi_h=phi_h,
+                        J=sh["J"])
+    raise RuntimeError("no zero-source brane at this phi_h")
+
+
+def solve_unsourced(model, T, mu, phi_grid=None):
+    from scipy.optimize import brentq
+    x0 = abs(mu) / T
+    sign = 1.0 if mu >= 0 else -1.0
+    if phi_grid is None:
+        phi_grid = np.r_[-np.geomspace(8, 0.05, 12), np.geomspace(0.05, 8, 12)]
+    pts = []
+    for p in phi_grid:
+        try:
+            pts.append((p, unsourced_point(model, p, fast=True)["x"]))
+        except RuntimeError:
+            pts.append((p, np.nan))
+    out = []
+    xs = lambda p: unsourced_point(model, p)["x"] - x0
+    for (pa, xa), (pb, xb) in zip(pts[:-1], pts[1:]):
+        if np.isfinite(xa) and np.isfinite(xb) and (xa - x0) * (xb - x0) <= 0:
+            ph = brentq(xs, pa, pb, xtol=1e-13)
+            out.append(_unsourced_row(model, ph, T, sign))
+    if x0 == 0.0:      # the neutral brane (phi = 0)
+        out.append(_unsourced_row(model, 0.0, T, sign))
+    return out
+
+
+def _unsourced_row(model, ph, T, sign):
+    if ph == 0.0:
+        s_hat = 2 * math.pi / model.kappa_sq / (1 / math.pi) ** 3
+        return dict(T=T, mu=0.0, s=s_hat * T ** 3, rho=0.0, P=s_hat * T ** 4 / 4, epsilon=3 * s_hat * T ** 4 / 4,
+                    chi2=np.nan, cs2=1.0 / 3.0, phi_h=0.0, error={})
+    c = unsourced_point(model, ph)
+    h = 0.01 * max(1.0, abs(ph))
+    d = {}
+    for m_ in (1.0, 0.5):
+        a, b = unsourced_point(model, ph + m_ * h), unsourced_point(model, ph - m_ * h)
+        d[m_] = (a["rho_hat"] - b["rho_hat"]) / (a["x"] - b["x"])
+    drho = (4 * d[0.5] - d[1.0]) / 3
+    s, rho, mu = c["s_hat"] * T ** 3, c["rho_hat"] * T ** 3, c["x"] * T
+    P = (T * s + mu * rho) / 4
+    return dict(T=T, mu=sign * mu, s=s, rho=sign * rho, P=P, epsilon=3 * P, chi2=T * drho, cs2=1.0 / 3.0,
+                phi_h=ph, u=c["u"], error=dict(chi2=abs(drho - d[0.5]) / abs(drho)))
