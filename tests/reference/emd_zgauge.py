@@ -435,13 +435,17 @@ def unsourced_point(model, phi_h, **kw):
     Qm = model.Qmax(phi_h)
 
     def J(u):
-        return shoot(model, phi_h, u * Qm, **kw)["J"]
+        try:
+            with np.errstate(all="ignore"):
+                return shoot(model, phi_h, u * Qm, **kw)["J"]
+        except (RuntimeError, ValueError):
+            return np.nan
 
     grid = np.linspace(0.02, 0.98, 13)
     vals = [J(u) for u in grid]
     for a, b, ja, jb in zip(grid[:-1], grid[1:], vals[:-1], vals[1:]):
-        if ja * jb <= 0:
-            u = brentq(J, a, b, xtol=1e-15, rtol=4e-16)
+        if np.isfinite(ja) and np.isfinite(jb) and ja * jb <= 0:
+            u = brentq(J, a, b, xtol=1e-15, rtol=1e-15)
             sh = shoot(model, phi_h, u * Qm, **kw)
             th = thermo_zh1(model, sh)
             T = th["T"]
