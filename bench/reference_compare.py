@@ -1,0 +1,99 @@
+"""holoscan's production solve against the independent reference (tests/reference).
+
+    .venv/bin/python bench/reference_compare.py [--quick] [--procs 2] [--accept 1e-8]
+
+(a) the demo grid (T in linspace(0.17, 0.27, 21), mu in linspace(0, 1, 21)) against the reference
+    solver; (b) a 60 x 60 one-charge grid (T in linspace(0.4, 2, 60), mu/T in linspace(0, 2, 60))
+    against the closed form; (c) the second invented model on T in linspace(0.2, 0.6, 15),
+    mu in linspace(0, 1, 15) against the reference solver. Prints the counts of reference/compare.py.
+The reference takes a few seconds per branch (plus a one-off scan per model and process), so (a)
+and (c) take tens of minutes; --quick keeps every 5th point of (a) and (c) and every 6th of (b).
+"""
+from __future__ import annotations
+
+import argparse
+import os
+import sys
+import time
+from multiprocessing import get_context
+
+import numpy as np
+
+HERE = os.path.dirname(os.path.abspath(__file__))
+sys.path.insert(0, os.path.join(HERE, "..", "tests"))
+
+from reference import onecharge as oc  # noqa: E402
+from reference.compare import compare, format_counts  # noqa: E402
+from reference.models import DEMO_F, DEMO_V, SECOND_F, SECOND_V, demo, second  # noqa: E402
+
+ONECHARGE_V = "-(8*exp(phi/sqrt(6)) + 4*exp(-2*phi/sqrt(6)))"
+ONECHARGE_F = "exp(-4*phi/sqrt(6))"
+_MODELS = {}
+
+
+def _ref_worker(args):
+    name, T, mu = args
+    from reference.emd_zgauge import solve
+    if name not in _MODELS:
+        _MODELS[name] = {"demo": demo, "second": second}[name]()
+    try:
+        rows = solve(_MODELS[name], T, mu)
+    except Exception as exc:  # a failed reference point is reported, not hidden
+        print(f"reference failed at {name} T={T} mu={mu}: {exc!r}", file=sys.stderr)
+        rows = []
+    for r in rows:
+        r["T"], r["mu"] = T, mu
+    return (T, mu), rows
+
+
+def holoscan_rows(V, f, source, targets):
+    from holoscan.models.emd import EMDModel
+    m = EMDModel(id="x", kappa_sq=1.0, V=V, f=f, source=source)
+    out = []
+    for (T, mu), res in zip(targets, m.solve_many(targets)):
+        for r in res:
+            out.append(dict(T=T, mu=mu, branch=r.branch, s=r.s, rho=r.rho, P=r.P, epsilon=r.epsilon,
+                            chi2=r.chi2, cs2=r.cs2, status=getattr(r.status, "value", r.status),
+                            error_estimate=r.error_estimate))
+    return out
+
+
+def run(name, V, f, targets, procs, accept):
+    t0 = time.time()
+    rows = holoscan_rows(V, f, True, targets)
+    t1 = time.time()
+    with get_context("fork").Pool(procs) as pool:
+        refs = dict(pool.map(_ref_worker, [(name, T, mu) for T, mu in targets], chunksize=1))
+    t2 = time.time()
+    c = compare(rows, refs, accept)
+    nb = sum(len(v) for v in refs.values())
+    print(format_counts(f"{name}: {len(targets)} points, {nb} reference branches", c, accept))
+    print(f"  holoscan {t1 - t0:.1f} s, reference {t2 - t1:.1f} s on {procs} processes")
+    return c
+
+
+def main():
+    ap = argparse.ArgumentParser()
+    ap.add_argument("--quick", action="store_true")
+    ap.add_argument("--procs", type=int, default=2)
+    ap.add_argument("--accept", type=float, default=1e-8)
+    a = ap.parse_args()
+    step = 5 if a.quick else 1
+    demo_t = [(float(T), float(mu)) for T in np.linspace(0.17, 0.27, 21) for mu in np.linspace(0, 1, 21)][::step]
+    second_t = [(float(T), float(mu)) for T in np.linspace(0.2, 0.6, 15) for mu in np.linspace(0, 1, 15)][::step]
+    oc_t = [(float(T), float(x * T)) for T in np.linspace(0.4, 2, 60) for x in np.linspace(0, 2, 60)][::6 if a.quick else 1]
+
+    # (b) one-charge against the closed form
+    t0 = time.time()
+    rows = holoscan_rows(ONECHARGE_V, ONECHARGE_F, False, oc_t)
+    refs = {(T, mu): [dict(p, T=T, mu=mu) for p in oc.points(T, mu)] for T, mu in oc_t}
+    c = compare(rows, refs, a.accept)
+    print(format_counts(f"one-charge: {len(oc_t)} points against the closed form", c, a.accept))
+    print(f"  holoscan {time.time() - t0:.1f} s")
+
+    run("demo", DEMO_V, DEMO_F, demo_t, a.procs, a.accept)
+    run("second", SECOND_V, SECOND_F, second_t, a.procs, a.accept)
+
+
+if __name__ == "__main__":
+    main()
