@@ -1,16 +1,57 @@
 """Targeted numerical solve of a scale-invariant charged brane with no scalar profile.
 
-Such a brane (Einstein-Maxwell in AdS_{d+1}) has one horizon datum, the horizon electric field
-``Phi1`` (in the gauge of :mod:`holoscan.bulk.charged_brane`), and a scaling symmetry: every
-observable of dimension ``n`` scales as ``T^n`` at fixed ``x = mu/T``. A solve at ``(T, mu)``:
+Such a brane (Einstein-Maxwell in AdS_{d+1}: kind ``rn`` with ``method: shooting`` and scalar-free
+``emd``) has one horizon datum, the horizon electric field ``Phi1`` (in the gauge of
+:mod:`holoscan.bulk.charged_brane`), and a scaling symmetry: every observable of dimension ``n``
+scales as ``T^n`` at fixed ``x = mu/T``. Units: any energy unit E; ``s``, ``rho`` in E^(d-1),
+``epsilon``, ``P`` in E^d, ``chi2 = d rho/d mu |_T`` in E^(d-2), ``cs2`` dimensionless. Internally
+everything is computed at ``T = 1`` ("hatted" values, ``x`` standing for ``mu``) and rescaled.
+
+A solve at ``(T, mu)``:
 
 1. root-finds ``u = Phi1/Phi1_max`` in ``[0, 1)`` so that the shot's ``mu/T`` equals ``|mu|/T``
    (bracketed Brent iteration; ``Phi1_max`` is where the horizon slope ``A'(0)`` vanishes, the
-   extremal limit), then rescales the shot to the requested ``T``;
-2. gets the Hessian of ``P`` from central differences in ``u`` (two steps, Richardson-extrapolated)
-   plus the exact scaling direction;
-3. repeats step 1 with tolerances 100 times tighter to estimate the error;
+   extremal limit); the densities are then moved to the exact target to first order in the small
+   remaining mismatch (``d s/d mu = P_Tmu``, ``d rho/d mu = chi2``, ``d P/d mu = rho``) and rescaled;
+2. gets the Hessian of ``P`` from the ``u``-derivatives of ``(x, s, rho)`` plus the exact scaling
+   direction. The ``u``-derivatives are central differences with steps ``h, 2h, 4h``
+   (``h = fd_step (1 - u)``: relative to the distance from the extremal
+   limit, where x(u) is singular) of shots at tolerance ``rtol/10^4`` (floored at 2.3e-14),
+   Richardson-extrapolated once: ``R(h) = (4 D(h) - D(2h))/3`` is used and ``|R(h) - R(2h)|``
+   (about 15 times its O(h^4) truncation error, and a sample of its noise) is its error;
+3. varies every other numerical choice once (one extra shot each at the root, the densities
+   carried to the target as in step 1; two extra shots each for the derivatives);
 4. uses the sign symmetry ``mu -> -mu`` (``rho`` odd, all else even).
+
+``error_estimate`` (relative, the largest over the six observables s, rho, epsilon, P, chi2, cs2)::
+
+    e_O = SAFETY * (sum of the components below) / scale_O + ROUNDING
+
+* ``rtol``: change under a re-shot with 100x tighter integration tolerances (derivatives: under
+  10x looser ones, divided by 9, the DOP853 error being proportional to its tolerance);
+* ``horizon offset``: change under a re-shot with the offset x OFFSET_FACTOR, divided by
+  ``OFFSET_FACTOR^2 - 1``: the second-order horizon series leaves an error ~ offset^2 (measured:
+  the densities change by a factor 100.0 per decade of offset from 1e-6 to 1e-4, d = 3 and 5);
+* ``read-out radius``: change when the integration ends A_END_EXTRA units of ``A`` later (the
+  boundary read-out is exact for this brane, so this measures the integration out to the end);
+* ``root``: the first-order move from the shot's ``mu/T`` to the target's (counted in full);
+* ``fd step`` (chi2, cs2): the Richardson spread of step 2, propagated with every other
+  derivative error through the Hessian to chi2 and cs2 (each derivative shifted by its error, the
+  changes added), and half the Maxwell-relation gap ``|ds/dmu - drho/dT|`` taken as an error of
+  ``P_Tmu`` and propagated to cs2.
+
+Scales: ``s``, ``epsilon``, ``P``, ``chi2``, ``cs2`` relative to their own magnitude (none
+vanishes); ``rho`` relative to ``max(|rho|, RHO_FLOOR * s)`` (``rho`` vanishes at ``mu = 0``; below a
+thousandth of the entropy density its absolute error is compared with ``s/1000``). ``mu`` is held
+to the target: ``target_mismatch = |mu_shot - |mu||/max(|mu|, T)`` must be <= accept_error / 100.
+A row is ``ok`` only when ``error_estimate`` and the field-equation residual are <= accept_error.
+The Maxwell-relation gap of the Hessian (extra ``maxwell_mismatch``, ``|ds/dmu - drho/dT|`` over
+``sqrt(|P_TT P_mumu|)``) is not a separate gate: it enters the cs2 estimate. At large mu/T it is
+dominated by the cancellation in ``drho/dT = (d-1) rho - x chi2`` (e.g. 2e-7 at mu/T = 10^4 in
+d = 5, where chi2 and cs2 are right to 2e-10 against the closed form). ``extra`` carries each component's largest
+relative size (``error_rtol``, ``error_offset``, ``error_readout``, ``error_root``, ``error_fd``),
+``deriv_error`` (the larger estimate of chi2 and cs2) and the per-observable estimates
+``error_by_observable``.
 """
 from __future__ import annotations
 
@@ -26,6 +67,21 @@ from .settings import SolverSettings
 from .thermo import cs2_from_hessian, hessian_from_jacobians, local_stability
 
 _DENSITIES = ("s", "rho", "epsilon", "P")
+OBSERVABLES = ("s", "rho", "epsilon", "P", "chi2", "cs2")
+#: the horizon-offset variant multiplies the offset by this factor
+OFFSET_FACTOR = 10.0
+#: measured order of the horizon-offset error (module docstring)
+OFFSET_ORDER = 2
+#: the read-out variant integrates this much further in the warp factor A
+A_END_EXTRA = 2.0
+#: safety factor on the summed components (common practice, no source)
+SAFETY = 2.0
+#: relative rounding floor of the read-out and rescaling in double precision
+ROUNDING = 1e-14
+#: rho is measured relative to max(|rho|, RHO_FLOOR * s)
+RHO_FLOOR = 1e-3
+#: derivative shots are this much tighter than the production tolerance
+DERIV_TIGHTER = 1e4
 
 
 class _ShotFailed(RuntimeError):
@@ -42,6 +98,13 @@ def _observe(brane: ChargedBrane, kappa_sq: float, Phi1: float, ss: ShootSetting
     obs = brane.boundary_unsourced(shot.y_end, kappa_sq)
     cnt.residual = max(cnt.residual, shot.residual, obs["frame_mismatch"])
     return obs
+
+
+def _unit(obs: dict, d: int) -> dict:
+    """Observables at T = 1: x = mu/T and the densities over T^(d-1) or T^d."""
+    lam = 1.0 / obs["T"]
+    return {"x": obs["mu"] * lam, "s": obs["s"] * lam ** (d - 1), "rho": obs["rho"] * lam ** (d - 1),
+            "epsilon": obs["epsilon"] * lam**d, "P": obs["P"] * lam**d}
 
 
 def _target(brane, kappa_sq, Phi_max, x, ss, cnt):
@@ -67,36 +130,44 @@ def _target(brane, kappa_sq, Phi_max, x, ss, cnt):
     return u, _observe(brane, kappa_sq, u * Phi_max, ss, cnt), info.iterations + k
 
 
-def _scaled(obs: dict, T: float, d: int) -> dict:
-    lam = T / obs["T"]
-    out = {"T": T, "mu": obs["mu"] * lam}
-    for k in ("s", "rho"):
-        out[k] = obs[k] * lam ** (d - 1)
-    for k in ("epsilon", "P"):
-        out[k] = obs[k] * lam**d
-    return out
+def _central(brane, kappa_sq, Phi_max, u, h, ss, cnt, d) -> dict:
+    """Central differences d/du of (x, s, rho) at T = 1 with step h."""
+    p = _unit(_observe(brane, kappa_sq, (u + h) * Phi_max, ss, cnt), d)
+    m = _unit(_observe(brane, kappa_sq, (u - h) * Phi_max, ss, cnt), d)
+    return {k: (p[k] - m[k]) / (2.0 * h) for k in ("x", "s", "rho")}
 
 
-def _hessian(brane, kappa_sq, Phi_max, u, base, T, du, ss, cnt):
-    d = brane.d
-    du = min(du, 0.25 * (1.0 - u))
-    plus = _scaled(_observe(brane, kappa_sq, (u + du) * Phi_max, ss, cnt), 1.0, d)
-    minus = _scaled(_observe(brane, kappa_sq, (u - du) * Phi_max, ss, cnt), 1.0, d)
-    b = _scaled(base, 1.0, d)
-    # Column 1: d/du; column 2: the scaling direction d/dlog(lambda) (dimension n -> n * value).
-    Jt = np.array([[(plus["T"] - minus["T"]) / (2 * du), b["T"]],
-                   [(plus["mu"] - minus["mu"]) / (2 * du), b["mu"]]])
-    Jd = np.array([[(plus["s"] - minus["s"]) / (2 * du), (d - 1) * b["s"]],
-                   [(plus["rho"] - minus["rho"]) / (2 * du), (d - 1) * b["rho"]]])
-    P_TT, P_Tmu, P_mumu, maxwell = hessian_from_jacobians(Jt, Jd)
-    # Hessian entries have dimension d-2: rescale from T = 1 to the requested T.
-    f = T ** (d - 2)
-    return P_TT * f, P_Tmu * f, P_mumu * f, maxwell
+def _second(vals: dict, D: dict, d: int):
+    """(P_TT, P_Tmu, P_mumu, maxwell, cs2) at T = 1 from the values and u-derivatives.
+
+    ``maxwell`` is ``|ds/dmu - drho/dT|`` on the scale ``sqrt(|P_TT P_mumu|)`` (which bounds
+    ``|P_Tmu|`` where the Hessian is definite): relative to ``P_Tmu`` itself it would be inflated
+    near extremality, where ``drho/dT = (d-1) rho - x chi2`` is a small difference of large terms."""
+    Jt = np.array([[0.0, 1.0], [D["x"], vals["x"]]])
+    Jd = np.array([[D["s"], (d - 1) * vals["s"]], [D["rho"], (d - 1) * vals["rho"]]])
+    P_TT, P_Tmu, P_mumu, _ = hessian_from_jacobians(Jt, Jd)
+    H = Jd @ np.linalg.inv(Jt)
+    maxwell = abs(H[0, 1] - H[1, 0]) / math.sqrt(abs(P_TT * P_mumu))
+    cs2 = cs2_from_hessian(1.0, vals["x"], vals["s"], vals["rho"], P_TT, P_Tmu, P_mumu)
+    return float(P_TT), float(P_Tmu), float(P_mumu), float(maxwell), float(cs2)
+
+
+def _at_target(vals: dict, x: float, P_Tmu: float, chi2: float, d: int) -> dict:
+    """Densities (T = 1) carried from the shot's x to the target x, to first order."""
+    dx = x - vals["x"]
+    slope = {"s": P_Tmu, "rho": chi2, "P": vals["rho"], "epsilon": (d - 1) * vals["rho"]}
+    return {"x": x, **{k: vals[k] + slope[k] * dx for k in _DENSITIES}}
+
+
+def _scale(vals: dict) -> dict:
+    return {"s": abs(vals["s"]), "rho": max(abs(vals["rho"]), RHO_FLOOR * abs(vals["s"])),
+            "epsilon": abs(vals["epsilon"]), "P": abs(vals["P"])}
 
 
 def solve_unsourced(brane: ChargedBrane, kappa_sq: float, T: float, mu: float, settings: SolverSettings,
                     *, model_id: str, kind: str) -> PointResult:
-    """Solve at the requested ``(T, mu)`` by shooting; never raises for numerical trouble."""
+    """Solve at the requested ``(T, mu)`` by shooting; never raises for numerical trouble. See the
+    module docstring for the method and for what ``error_estimate`` covers."""
     t0 = time.perf_counter()
     d = brane.d
     sign = -1.0 if mu < 0 else 1.0
@@ -104,42 +175,108 @@ def solve_unsourced(brane: ChargedBrane, kappa_sq: float, T: float, mu: float, s
     f = float(brane.f.derivs(0.0)[0])
     Phi_max = math.sqrt(-2.0 * float(brane.V.derivs(0.0)[0]) / f)
     ss = settings.shoot_settings()
+    tight = ss.tighter()
+    sd = ss.tighter(DERIV_TIGHTER)
+    sd_loose = ShootSettings(rtol=sd.rtol * 10.0, atol=sd.atol, method=sd.method,
+                             horizon_offset=sd.horizon_offset, residual_samples=sd.residual_samples)
+    far = ChargedBrane(d, brane.V, brane.f, A_end=brane.A_end + A_END_EXTRA)
+
+    def offset(s: ShootSettings) -> ShootSettings:
+        return ShootSettings(rtol=s.rtol, atol=s.atol, method=s.method,
+                             horizon_offset=s.horizon_offset * OFFSET_FACTOR, residual_samples=s.residual_samples)
+
     cnt = Counters()
     common = dict(model_id=model_id, kind=kind, d=d, method="shooting", T=T, mu=mu,
                   rtol=ss.rtol, atol=ss.atol)
     try:
-        u, base, niter = _target(brane, kappa_sq, Phi_max, x, ss, cnt)
-        tight_cnt = Counters()
-        _, tight, _ = _target(brane, kappa_sq, Phi_max, x, ss.tighter(), tight_cnt)
-        vals = _scaled(base, T, d)
-        vals_tight = _scaled(tight, T, d)
-        H = _hessian(brane, kappa_sq, Phi_max, u, base, T, settings.fd_step, ss, cnt)
-        H2 = _hessian(brane, kappa_sq, Phi_max, u, base, T, 2 * settings.fd_step, ss, cnt)
+        u, base_obs, niter = _target(brane, kappa_sq, Phi_max, x, ss, cnt)
+        base = _unit(base_obs, d)
+        root_shots = cnt.shots
+        # -- derivatives along u: three steps, Richardson, and the variants -------------------------
+        h = settings.fd_step * (1.0 - u)
+        Ds = [_central(brane, kappa_sq, Phi_max, u, m * h, sd, cnt, d) for m in (1, 2, 4)]
+        R1 = {k: (4.0 * Ds[0][k] - Ds[1][k]) / 3.0 for k in Ds[0]}
+        R2 = {k: (4.0 * Ds[1][k] - Ds[2][k]) / 3.0 for k in Ds[0]}
+        D_var = {
+            "rtol": (_central(brane, kappa_sq, Phi_max, u, h, sd_loose, cnt, d), 1.0 / 9.0),
+            "offset": (_central(brane, kappa_sq, Phi_max, u, h, offset(sd), cnt, d),
+                       1.0 / (OFFSET_FACTOR**OFFSET_ORDER - 1.0)),
+            "readout": (_central(far, kappa_sq, Phi_max, u, h, sd, cnt, d), 1.0),
+        }
+        centre = _unit(_observe(brane, kappa_sq, u * Phi_max, sd, cnt), d)
+        D_err = {name: {k: w * abs(Dv[k] - Ds[0][k]) for k in R1} for name, (Dv, w) in D_var.items()}
+        D_err["fd"] = {k: abs(R1[k] - R2[k]) for k in R1}
+        # -- value variants at the root ----------------------------------------------------------------
+        V_var = {
+            "rtol": _unit(_observe(brane, kappa_sq, u * Phi_max, tight, cnt), d),
+            "offset": _unit(_observe(brane, kappa_sq, u * Phi_max, offset(tight), cnt), d),
+            "readout": _unit(_observe(far, kappa_sq, u * Phi_max, tight, cnt), d),
+        }
     except _ShotFailed as exc:
         return PointResult(**common, status=Status.FAILED, message=str(exc), nfev=cnt.nfev,
                            nsteps=cnt.nsteps, niter=cnt.shots, wall_time=time.perf_counter() - t0)
-    # Richardson extrapolation of the two central-difference steps (error O(du^4)); the size of
-    # the correction is the derivative error estimate.
-    P_TT, P_Tmu, P_mumu = ((4.0 * a - b) / 3.0 for a, b in zip(H[:3], H2[:3]))
-    maxwell = H[3]
-    err = max(abs(vals[k] - vals_tight[k]) / max(abs(vals_tight[k]), 1e-300) for k in _DENSITIES)
-    deriv_err = max((abs(a - r) / abs(r) for a, r in zip(H[:3], (P_TT, P_Tmu, P_mumu)) if r != 0.0), default=0.0)
-    target_mismatch = abs(vals["mu"] - x * T) / max(x * T, T)
+
+    # the Hessian's scaling column uses the values of the (tighter) derivative shots: near
+    # extremality drho/dT = (d-1) rho - x chi2 cancels, and the production values would limit it
+    P_TT, P_Tmu, P_mumu, maxwell, cs2 = _second(centre, R1, d)
+    vals = _at_target(base, x, P_Tmu, P_mumu, d)
+    scale = _scale(vals)
+    scale2 = {"chi2": abs(P_mumu), "cs2": abs(cs2)}
+    comps = {}  # component -> observable -> relative size (before SAFETY)
+    # root: the first-order move to the target, counted in full
+    comps["root"] = {k: abs(vals[k] - base[k]) / scale[k] for k in _DENSITIES}
+    comps["root"].update(chi2=0.0, cs2=0.0)
+    # rtol, offset, read-out: value variants carried to the target (same Hessian slopes)
+    for name, w in (("rtol", 1.0), ("offset", 1.0 / (OFFSET_FACTOR**OFFSET_ORDER - 1.0)), ("readout", 1.0)):
+        ref = vals if name == "rtol" else _at_target(V_var["rtol"], x, P_Tmu, P_mumu, d)
+        var = _at_target(V_var[name], x, P_Tmu, P_mumu, d)
+        comps[name] = {k: w * abs(var[k] - ref[k]) / scale[k] for k in _DENSITIES}
+        comps[name].update(chi2=0.0, cs2=0.0)
+    # the Hessian also uses the values (scaling column): their change from rtol/10^4 to rtol/100
+    # (an upper bound of their own error), propagated
+    _, _, c2t, _, cs2t = _second(V_var["rtol"], R1, d)
+    comps["rtol"]["chi2"] = abs(c2t - P_mumu) / scale2["chi2"]
+    comps["rtol"]["cs2"] = abs(cs2t - cs2) / scale2["cs2"]
+    comps["fd"] = {k: 0.0 for k in OBSERVABLES}
+    # every derivative error (Richardson spread; rtol, offset and read-out variants of the
+    # derivative shots): each u-derivative shifted by its error, the changes of chi2, cs2 added
+    # to that source's component
+    for name, errs in D_err.items():
+        for k in R1:
+            _, _, c2k, _, cs2k = _second(centre, {**R1, k: R1[k] + errs[k]}, d)
+            comps[name]["chi2"] += abs(c2k - P_mumu) / scale2["chi2"]
+            comps[name]["cs2"] += abs(cs2k - cs2) / scale2["cs2"]
+    # the Maxwell relation: half the gap between ds/dmu and drho/dT as an error of P_Tmu (fd)
+    dP = 0.5 * maxwell * math.sqrt(abs(P_TT * P_mumu))
+    cs2_m = cs2_from_hessian(1.0, centre["x"], centre["s"], centre["rho"], P_TT, P_Tmu + dP, P_mumu)
+    comps["fd"]["cs2"] += abs(cs2_m - cs2) / scale2["cs2"]
+    per_obs = {k: SAFETY * sum(c[k] for c in comps.values()) + ROUNDING for k in OBSERVABLES}
+    err = max(per_obs.values())
+    deriv_err = max(per_obs["chi2"], per_obs["cs2"])
+    target_mismatch = abs(base["x"] - x) / max(x, 1.0)
     residual = cnt.residual
-    s, rho = vals["s"], vals["rho"]
-    cs2 = cs2_from_hessian(T, x * T, s, rho, P_TT, P_Tmu, P_mumu)
     problems = settings.problems(err, residual)
     if not target_mismatch <= 1e-2 * settings.accept_error:
         problems.append(f"target mismatch {target_mismatch:.3g} > accept_error / 100")
+    if problems:
+        worst = max(per_obs, key=per_obs.get)
+        problems[0] += f" (largest in {worst})"
     status = Status.NOT_CONVERGED if problems else Status.OK
     message = "; ".join(problems) if problems else f"converged: {niter} root iterations, {cnt.shots} shots"
+    # rescale from T = 1
+    s, rho = vals["s"] * T ** (d - 1), vals["rho"] * T ** (d - 1)
+    eps, P = vals["epsilon"] * T**d, vals["P"] * T**d
+    fH = T ** (d - 2)
+    P_TT, P_Tmu, P_mumu = P_TT * fH, P_Tmu * fH, P_mumu * fH
     return PointResult(
         **common,
-        s=s, rho=sign * rho, epsilon=vals["epsilon"], P=vals["P"], chi2=P_mumu, cs2=cs2,
-        P_check=(T * s + x * T * rho) / d, trace_anomaly=(vals["epsilon"] - (d - 1) * vals["P"]) / T**d,
+        s=s, rho=sign * rho, epsilon=eps, P=P, chi2=P_mumu, cs2=cs2,
+        P_check=(T * s + x * T * rho) / d, trace_anomaly=(eps - (d - 1) * P) / T**d,
         stability=local_stability(P_TT, P_Tmu, P_mumu),
-        status=status, message=message, nfev=cnt.nfev + tight_cnt.nfev, nsteps=cnt.nsteps + tight_cnt.nsteps,
+        status=status, message=message, nfev=cnt.nfev, nsteps=cnt.nsteps,
         niter=niter, residual=residual, error_estimate=err, wall_time=time.perf_counter() - t0,
         extra={"horizon_Phi1": sign * u * Phi_max, "deriv_error": deriv_err, "maxwell_mismatch": maxwell,
-               "target_mismatch": target_mismatch, "shots": cnt.shots + tight_cnt.shots},
+               "target_mismatch": target_mismatch, "shots": cnt.shots, "root_shots": root_shots,
+               **{f"error_{name}": SAFETY * max(c.values()) for name, c in comps.items()},
+               "error_by_observable": per_obs},
     )
