@@ -31,7 +31,7 @@ class SolverSettings:
 
     method: str = "auto"
     rtol: float = 1e-10
-    horizon_offset: float = 1e-8
+    horizon_offset: float = 1e-10
     accept_error: float = 1e-8
     fd_step: float = 1e-3
 

@@ -152,8 +152,9 @@ class ChargedBrane:
         return y
 
     def start_states(self, phi0, Phi1, eps: float) -> np.ndarray:
-        """States (8, B) at ``r = eps`` from the regular second-order horizon series, for arrays of
-        horizon data at once; NaN columns where ``A'(0) <= 0`` (no asymptotically AdS brane)::
+        """States (8, B) at ``r = eps / max(1, A'(0))`` from the regular second-order horizon series,
+        for arrays of horizon data at once; NaN columns where ``A'(0) <= 0`` (no asymptotically AdS
+        brane). ``eps`` is the hand-over point in units of the horizon's radial scale ``1/A'(0)``::
 
             A'(0) = -(V + f Phi1^2/2)/(d-1),  phi'(0) = V_phi - f_phi Phi1^2/2,  A''(0) = -phi'(0)^2/(2(d-1)),
             h''(0) = -d A'(0) + f Phi1^2,  Phi''(0) = -((d-2) A'(0) + f_phi phi'(0)/f) Phi1,
@@ -170,7 +171,10 @@ class ChargedBrane:
             P2 = -((d - 2) * a1 + fp * p1 / f) * P1
             S1 = Vpp * p1 - 0.5 * fpp * p1 * P1**2 + fp * a1 * P1**2 - fp * P1 * P2
             p2 = (S1 - (d * a1 + h2) * p1) / 2.0
-            e = eps
+            # the hand-over radius in units of the horizon's own radial scale 1/A'(0): the series
+            # leaves an error ~ (eps A'(0))^2 that the bulk then amplifies, and A'(0) grows fast
+            # with the horizon scalar (measured: 1e2 at phi0 = 6, 1e5 at phi0 = 18 in a dilaton model)
+            e = eps / np.maximum(1.0, np.where(a1 > 0.0, a1, 1.0))
             y = np.array([
                 a1 * e + 0.5 * a2 * e * e, a1 + a2 * e, e + 0.5 * h2 * e * e + 0 * a1, 1.0 + h2 * e,
                 P1 * e + 0.5 * P2 * e * e, P1 + P2 * e, phi0 + p1 * e + 0.5 * p2 * e * e, p1 + p2 * e,

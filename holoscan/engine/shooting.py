@@ -59,7 +59,7 @@ class ShootSettings:
     rtol: float = 1e-10
     atol: float = 0.0
     method: str = "DOP853"
-    horizon_offset: float = 1e-8
+    horizon_offset: float = 1e-10
     residual_samples: int = 64
 
     def tighter(self, factor: float = 100.0) -> "ShootSettings":

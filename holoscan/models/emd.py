@@ -36,6 +36,7 @@ from ..conformal import solve_unsourced
 from ..emd_batch import batch_solver
 from ..emd_pressure import ZeroDensityPressure, lobatto, path_integral
 from ..emd_solver import Counters, EMDShooter, find_branches
+from ..engine import ShootSettings
 from ..errors import InputError
 from ..expr import ParsedCoupling
 from ..result import PointResult, Status
@@ -43,6 +44,9 @@ from ..settings import SolverSettings
 from ..thermo import cs2_from_hessian, hessian_from_jacobians, local_stability
 
 D_BOUNDARY = 4
+#: horizon-scalar range and nodes of an unsourced family's coarse scan (and atlas)
+UNSOURCED_PHI0_MAX = 12.0
+UNSOURCED_N_PHI0 = 49
 
 
 @lru_cache(maxsize=256)
@@ -154,26 +158,35 @@ def _shooter(model: EMDModel, V, f) -> EMDShooter:
     key = tuple(sorted(model.spec().items()))
     if key not in _SHOOTERS:
         brane = ScalarBrane(D_BOUNDARY, V, f, delta=model.delta)
-        _SHOOTERS[key] = EMDShooter(brane, model.kappa_sq, sourced=model.source)
+        if model.source:
+            _SHOOTERS[key] = EMDShooter(brane, model.kappa_sq, sourced=True)
+        else:
+            # an unsourced family reaches mu/T -> 0 again only at large |phi0| (the one-charge black
+            # hole's unstable branch has phi0 = -7.9 at mu/T = 0.05): scan further out
+            _SHOOTERS[key] = EMDShooter(brane, model.kappa_sq, sourced=False, phi0_max=UNSOURCED_PHI0_MAX,
+                                        n_phi0=UNSOURCED_N_PHI0)
     return _SHOOTERS[key]
 
 
 def _gradients(sh: EMDShooter, q, steps, ss, cnt, transform=None):
     """Gradients in ``(phi0, u)`` of the observables ``(x, j, s_hat, rho_hat)``, or of
-    ``transform(observables)``: central differences with steps h and 2h (``steps`` gives h per
-    direction), Richardson-extrapolated (error O(h^4)). Returns (G, elementwise error estimate)."""
+    ``transform(observables)``: central differences with steps h, 2h and 4h (``steps`` gives h per
+    direction), Richardson-extrapolated from h and 2h (error O(h^4)). The error estimate is the
+    change of the extrapolant when it is made from 2h and 4h instead, divided by 16 / 1 = the
+    ratio of their O(h^4) errors, times 3 (safety). Returns (G, elementwise error estimate)."""
     cols, errs = [], []
     for k in range(2):
         h = np.zeros(2)
         h[k] = steps[k]
-        o = sh.observe_many([q + h, q - h, q + 2 * h, q - 2 * h], ss, cnt)
+        o = sh.observe_many([q + h, q - h, q + 2 * h, q - 2 * h, q + 4 * h, q - 4 * h], ss, cnt)
         if not np.all(np.isfinite(o)):
             raise ArithmeticError("a derivative shot failed")
         if transform is not None:
             o = [transform(r) for r in o]
-        diffs = [(o[0] - o[1]) / (2 * h[k]), (o[2] - o[3]) / (4 * h[k])]
-        cols.append((4 * diffs[0] - diffs[1]) / 3)
-        errs.append(np.abs(diffs[0] - diffs[1]) / 3)
+        D1, D2, D4 = ((o[2 * i] - o[2 * i + 1]) / (2 * f * h[k]) for i, f in enumerate((1, 2, 4)))
+        R1, R2 = (4 * D1 - D2) / 3, (4 * D2 - D4) / 3
+        cols.append(R1)
+        errs.append(3.0 * np.abs(R1 - R2) / 15.0)
     return np.column_stack(cols), np.column_stack(errs)
 
 
@@ -212,7 +225,7 @@ def solve_family(model: EMDModel, sh: EMDShooter, T: float, mu: float, settings:
         except ArithmeticError as exc:
             out.append(PointResult(**common, branch=b, status=Status.FAILED, message=str(exc)))
             continue
-        ot = sh.observe(q, tight, None)
+        ot = sh.observe(q, ShootSettings(rtol=tight.rtol, horizon_offset=10.0 * ss.horizon_offset), None)
         xs, sh_, rh = o[0], o[2], o[3]
         s, rho = sh_ * T ** (d - 1), rh * T ** (d - 1)
         P = (T * s + x * T * rho) / d
@@ -223,7 +236,10 @@ def solve_family(model: EMDModel, sh: EMDShooter, T: float, mu: float, settings:
         f2 = T ** (d - 2)
         P_TT, P_Tmu, P_mumu = P_TT * f2, P_Tmu * f2, P_mumu * f2
         cs2 = cs2_from_hessian(T, x * T, s, rho, P_TT, P_Tmu, P_mumu)
-        err = math.nan if ot is None else float(np.max(np.abs(ot[[0, 2, 3]] - o[[0, 2, 3]]) / np.abs(ot[[0, 2, 3]]).clip(1e-300)))
+        # floors: mu/T against max(|mu/T|, 1), rho_hat against max(|rho_hat|, s_hat)
+        err = math.nan if ot is None else float(np.max(np.abs(ot[[0, 2, 3]] - o[[0, 2, 3]]) / np.maximum(
+            np.abs(o[[0, 2, 3]]), [1.0, o[2], o[2]])))
+        err = max(err, deriv_err) + 1e-13
         problems = settings.problems(err, cnt.residual)
         out.append(PointResult(
             **common, s=s, rho=sign * rho, epsilon=(d - 1) * P, P=P, chi2=P_mumu, cs2=cs2, branch=b,
@@ -246,15 +262,19 @@ def _physical(o: np.ndarray, d: int, D: float) -> np.ndarray:
 
 
 def _pressure_reference(sh: EMDShooter, ss) -> ZeroDensityPressure:
+    """The model's zero-density pressure (:mod:`holoscan.emd_pressure`), once per shooter; its
+    shots are 100 times tighter than ``ss`` (as the atlas's nodes)."""
     if "P0" not in sh.cache:
         d, D = sh.brane.d, sh.brane.delta
+        tight = ss.tighter()
 
-        def samples(phi0s):
-            o = sh.observe_many(np.column_stack([phi0s, np.zeros_like(phi0s)]), ss)
+        def samples(phi0s, offset_factor):
+            shot = ShootSettings(rtol=tight.rtol, horizon_offset=tight.horizon_offset * offset_factor)
+            o = sh.observe_many(np.column_stack([phi0s, np.zeros_like(phi0s)]), shot)
             return np.array([_physical(r, d, D)[[0, 2]] for r in o])
 
         try:
-            sh.cache["P0"] = ZeroDensityPressure(samples, 1e-3, sh.phi0_max)
+            sh.cache["P0"] = ZeroDensityPressure(samples, 1e-2, sh.phi0_max)
         except ArithmeticError as exc:
             sh.cache["P0"] = exc
     return sh.cache["P0"]
@@ -304,10 +324,13 @@ def solve_sourced(model: EMDModel, sh: EMDShooter, T: float, mu: float, settings
             if isinstance(P0, Exception):
                 raise ArithmeticError(str(P0))
             qa = np.array([abs(q[0]), abs(q[1])])
-            P1 = P0(qa[0]) + _route(sh, (qa[0], 0.0), qa, ss, cnt)
+            # the routes' shots at the reference's tolerance (100 times tighter): P is a difference
+            # of integrals, and s, rho along them must be better than the row's promise
+            P1 = P0(qa[0]) + _route(sh, (qa[0], 0.0), qa, tight, cnt)
             shift = 0.4 if qa[0] * math.exp(0.4) < sh.phi0_max else -0.4
             qs = (qa[0] * math.exp(shift), 0.0)
-            P2 = P0(qs[0]) + _route(sh, qs, qa, ss, cnt)
+            P2 = P0(qs[0]) + _route(sh, qs, qa, tight, cnt)
+            P0err = P0.error(qa[0]) + P0.error(qs[0])
         except ArithmeticError as exc:
             out.append(PointResult(**common, branch=b, status=Status.FAILED, message=str(exc),
                                    nfev=cnt.nfev, nsteps=cnt.nsteps, niter=niter, wall_time=time.perf_counter() - t0))
@@ -318,10 +341,14 @@ def solve_sourced(model: EMDModel, sh: EMDShooter, T: float, mu: float, settings
         P_TT, P_Tmu, P_mumu = P_TT * f2, P_Tmu * f2, P_mumu * f2
         eps = T * s + x * T * rho - P
         cs2 = cs2_from_hessian(T, x * T, s, rho, P_TT, P_Tmu, P_mumu)
-        ot = sh.observe(q, tight, None)
-        err = math.nan if ot is None else float(np.max(np.abs(_physical(ot, d, D) - X) / np.abs(_physical(ot, d, D)).clip(1e-300)))
+        ot = sh.observe(q, ShootSettings(rtol=tight.rtol, horizon_offset=10.0 * ss.horizon_offset), None)
+        # floors: mu against max(|mu|, T), rho against max(|rho|, s) (both vanish at mu = 0)
+        err = math.nan if ot is None else float(np.max(np.abs(_physical(ot, d, D) - X) / np.maximum(
+            np.abs(X), [X[0], X[0], X[2], X[2]])))
         P_mismatch = abs(P1 - P2) / max(abs(P1), 1e-300)
-        total = max(err, P_mismatch)
+        # derivatives (chi2, cs2): the gradients' own error, relative to the gradients' scale
+        deriv_rel = float(np.max(J_err / np.maximum(np.max(np.abs(J), axis=1, keepdims=True), 1e-300)))
+        total = max(err, P_mismatch + P0err / max(abs(P1), 1e-300), deriv_rel) + 1e-13
         problems = settings.problems(total, cnt.residual)
         out.append(PointResult(
             **common, s=s, rho=sign * rho, epsilon=eps, P=P, chi2=P_mumu, cs2=cs2, branch=b,
@@ -333,7 +360,7 @@ def solve_sourced(model: EMDModel, sh: EMDShooter, T: float, mu: float, settings
             extra={"horizon_phi0": float(q[0]),
                    "horizon_u": float(q[1]) * sign, "target_mismatch": fnorm, "P_route2": P2 * L**d,
                    "P_mismatch": P_mismatch, "trace_anomaly": (eps - 3 * P) / T**4,
-                   "deriv_error": float(np.max(J_err)), "maxwell_mismatch": maxwell,
+                   "deriv_error": deriv_rel, "maxwell_mismatch": maxwell,
                    "P_reference_power": P0.k_ref, "shots": cnt.shots},
         ))
     return out
