@@ -46,15 +46,36 @@ Branches returned by :meth:`ChargedScalarModel.solve`: 0 the normal brane (close
 Every result's ``extra`` holds ``phase`` ("normal" or "condensed"), ``condensate`` (<O>, 0.0 on the
 normal branch), ``T_c`` (the onset temperature at this |mu|, ``|mu|/x_c``) and ``mu_over_T_c`` (x_c).
 
-Solver record of a condensed result: ``error_estimate`` is the larger of the relative change of
-(rho, s, P, <O>) under a re-solve with 100x tighter tolerances and ``|P - P_check|/|P|``;
-``residual`` is the larger of ``|source/vev|`` at the solution and, with backreaction, the drift of
-the radially conserved charge between the horizon and r = 2, 40 (there is no independent
-constraint in the probe limit); ``nfev``/``nsteps`` count the point's own shots, not the onset and
-family work cached once per model, tolerance and process (:data:`_CACHE`).
+Solver record of a condensed result. ``error_estimate`` is relative, the largest over s, rho,
+epsilon, P, chi2 and cs2 of ``SAFETY * (sum of components) + ROUNDING`` (constants at the end of the
+module); each component is one numerical choice varied once, in units T = 1, the values carried to
+the exact target mu/T to first order:
+
+* ``rtol``: re-solve (Newton from the member) with 100x tighter tolerances; for chi2, cs2 the
+  derivatives at 10x looser tolerances than their own (rtol/10^4), divided by 9;
+* ``offset``: re-solve with the horizon offset x10, divided by ``10^1.8 - 1`` (measured on sc-demo:
+  the shots change by a factor 78-82 per decade of offset from 1e-6 to 1e-4);
+* ``readout``: re-solve with the outer integration 4 units of log r longer;
+* ``root``: the first-order move from the member's mu/T to the target (counted in full);
+* ``fd`` (chi2, cs2): the family derivatives are central differences with steps h, 2h, 4h in
+  (psi0, E), Richardson-extrapolated; the spread of the extrapolants along the family tangent, and
+  half the Maxwell-relation gap as an error of P_Tmu (all derivative errors are propagated to
+  chi2 and cs2 through the Hessian);
+* ``family`` (P, epsilon): ``|P - P_check|/|P|`` plus the family interpolant's own estimate, where
+  ``P_check`` is the first law integrated along the family.
+
+Scales: rho relative to ``max(|rho|, 1e-3 s)``, s relative to ``max(|s|, 1e-3 |mu rho|/T)``, the rest
+relative to their own magnitude. The condensate's estimate (same components) is reported as
+``extra.condensate_error`` and is not part of ``error_estimate``. ``residual`` is the larger of
+``|source/vev|`` at the solution and, with backreaction, the drift of the radially conserved charge
+between the horizon and r = 2, 40 (there is no independent constraint in the probe limit);
+``nfev``/``nsteps`` count the point's own shots, not the onset and family work cached once per
+model, tolerance and process (:data:`_CACHE`). ``extra`` holds each component's largest size
+(``error_rtol``, ...), ``error_by_observable`` and ``deriv_error`` (the larger of chi2's and cs2's).
 """
 from __future__ import annotations
 
+import copy
 import math
 import time
 from dataclasses import dataclass
@@ -286,60 +307,141 @@ class ChargedScalarModel:
             out.append(self._condensed(st, T, mu, settings, extra))
         return out
 
+    def _hessian(self, o: dict, deriv: dict, x: float):
+        """(P_TT, P_Tmu, P_mumu, maxwell, cs2) at T = 1, mu = x >= 0 from the member's values and
+        its derivatives along the family; columns (family tangent, scaling direction)."""
+        d = self.d
+        Jt = np.array([[0.0, 1.0], [deriv["x"], o["x"]]])
+        Jd = np.array([[deriv["s_hat"], (d - 1) * o["s_hat"]], [deriv["rho_hat"], (d - 1) * o["rho_hat"]]])
+        P_TT, P_Tmu, P_mumu, maxwell = hessian_from_jacobians(Jt, Jd)
+        cs2 = self._cs2(1.0, x, o["s_hat"], o["rho_hat"], P_TT, P_Tmu, P_mumu)
+        return float(P_TT), float(P_Tmu), float(P_mumu), float(maxwell), float(cs2)
+
     def _condensed(self, st: dict, T: float, mu: float, settings: SolverSettings, onset_extra: dict) -> PointResult:
+        """The condensed brane at (T, mu); see the module docstring for what ``error_estimate`` covers."""
         t0 = time.perf_counter()
         d, D = self.d, self.delta
         brane, fam = st["brane"], st["family"]
         x = abs(mu) / T
         sign = -1.0 if mu < 0 else 1.0
         ss = settings.shoot_settings()
+        tight = ss.tighter()
+        rt_d = ss.tighter(DERIV_TIGHTER).rtol
+        off, off_var = ss.horizon_offset, ss.horizon_offset * OFFSET_FACTOR
+        off_w = 1.0 / (OFFSET_FACTOR**OFFSET_ORDER - 1.0)
+        far = copy.copy(brane)
+        far.t_end = brane.t_end + T_END_EXTRA
         work = Work()
         common = dict(model_id=self.id, kind=self.kind, d=d, method="shooting", T=T, mu=mu, branch=1,
                       rtol=ss.rtol, atol=ss.atol)
         try:
             guess = fam.locate(x)
-            m = solve_member(brane, x, guess, ss.rtol, ss.horizon_offset, work)
-            tight_work = Work()
-            mt = solve_member(brane, x, (m.s, m.E), ss.tighter().rtol, ss.horizon_offset, tight_work)
-            deriv, deriv_err = family_gradients(brane, m, settings.fd_step, ss.tighter(10).rtol, ss.horizon_offset, work)
+            m = solve_member(brane, x, guess, ss.rtol, off, work)
+            var_work = Work()
+            seed = (m.s, m.E)
+            mt = solve_member(brane, x, seed, tight.rtol, off, var_work)
+            mo = solve_member(brane, x, seed, tight.rtol, off_var, var_work)
+            mr = solve_member(far, x, seed, tight.rtol, off, var_work)
+            deriv, d_err = family_gradients(
+                brane, m, FD_SCALE * settings.fd_step, rt_d, off, work,
+                variants=(("rtol", brane, 10.0 * rt_d, off, 1.0 / 9.0), ("offset", brane, rt_d, off_var, off_w),
+                          ("readout", far, rt_d, off, 1.0)))
             P_fam, P_fam_err = fam.pressure(m.s)
         except (ArithmeticError, ValueError, np.linalg.LinAlgError) as exc:  # SolveError is an ArithmeticError
             return PointResult(**common, status=Status.FAILED, message=str(exc), nfev=work.nfev, nsteps=work.nsteps,
                                niter=work.shots, wall_time=time.perf_counter() - t0,
                                extra={"phase": "condensed", **onset_extra})
         o = m.vals
-        sh_, rh_, ph_ = o["s_hat"], o["rho_hat"], o["p_hat"]
-        # Hessian in units T = 1: columns (family tangent, scaling direction)
-        Jt = np.array([[0.0, 1.0], [deriv["x"], o["x"]]])
-        Jd = np.array([[deriv["s_hat"], (d - 1) * sh_], [deriv["rho_hat"], (d - 1) * rh_]])
-        P_TT, P_Tmu, P_mumu, maxwell = hessian_from_jacobians(Jt, Jd)
-        f2 = T ** (d - 2)
-        P_TT, P_Tmu, P_mumu = P_TT * f2, sign * P_Tmu * f2, P_mumu * f2
-        s, rho, P = sh_ * T ** (d - 1), sign * rh_ * T ** (d - 1), ph_ * T**d
-        P_check = P_fam * T**d
-        err = max(abs(mt.vals[k] - o[k]) / max(abs(mt.vals[k]), 1e-300) for k in ("rho_hat", "s_hat", "p_hat", "O_hat"))
-        P_mismatch = abs(P - P_check) / max(abs(P), 1e-300)
-        error = max(err, P_mismatch)
+        P_TT, P_Tmu, P_mumu, maxwell, cs2 = self._hessian(o, deriv, x)
+
+        def at_target(vals: dict) -> dict:
+            """Values (T = 1) moved from the member's mu/T to the target, to first order."""
+            dx = x - vals["x"]
+            slope = {"s_hat": P_Tmu, "rho_hat": P_mumu, "p_hat": vals["rho_hat"],
+                     "O_hat": deriv["O_hat"] / deriv["x"]}
+            return {k: vals[k] + slope[k] * dx for k in slope}
+
+        vals = at_target(o)
+        keys = {"s": "s_hat", "rho": "rho_hat", "P": "p_hat", "condensate": "O_hat"}
+        scale = {"s": max(abs(vals["s_hat"]), RHO_FLOOR * abs(x * vals["rho_hat"])),
+                 "rho": max(abs(vals["rho_hat"]), RHO_FLOOR * abs(vals["s_hat"])),
+                 "P": abs(vals["p_hat"]), "condensate": abs(vals["O_hat"]), "chi2": abs(P_mumu), "cs2": abs(cs2)}
+        names = ("s", "rho", "P", "chi2", "cs2", "condensate")
+        comps = {c: {k: 0.0 for k in names} for c in ("root", "rtol", "offset", "readout", "fd", "family")}
+        for k, kk in keys.items():
+            comps["root"][k] = abs(vals[kk] - o[kk]) / scale[k]
+        ref = at_target(mt.vals)
+        for c, mv, w in (("rtol", mt, 1.0), ("offset", mo, off_w), ("readout", mr, 1.0)):
+            var = at_target(mv.vals)
+            base = vals if c == "rtol" else ref
+            for k, kk in keys.items():
+                comps[c][k] = w * abs(var[kk] - base[kk]) / scale[k]
+        # the Hessian's scaling column uses the values: their rtol change, propagated
+        _, _, c2t, _, cs2t = self._hessian(mt.vals, deriv, x)
+        comps["rtol"]["chi2"] += abs(c2t - P_mumu) / scale["chi2"]
+        comps["rtol"]["cs2"] += abs(cs2t - cs2) / scale["cs2"]
+        # derivative errors by source, propagated to chi2 and cs2 (each derivative shifted by its
+        # error, the changes added); half the Maxwell gap as an error of P_Tmu (fd)
+        for c, errs in d_err.items():
+            for k in ("x", "s_hat", "rho_hat"):
+                _, _, c2k, _, cs2k = self._hessian(o, {**deriv, k: deriv[k] + errs[k]}, x)
+                comps[c]["chi2"] += abs(c2k - P_mumu) / scale["chi2"]
+                comps[c]["cs2"] += abs(cs2k - cs2) / scale["cs2"]
+        dP = 0.5 * maxwell * max(abs(P_Tmu), 1e-300)
+        comps["fd"]["cs2"] += abs(self._cs2(1.0, x, o["s_hat"], o["rho_hat"], P_TT, P_Tmu + dP, P_mumu) - cs2) / scale["cs2"]
+        # the pressure's second route (first law along the family): the gap counts for P
+        P_mismatch = abs(vals["p_hat"] - P_fam) / scale["P"]
+        comps["family"]["P"] = P_mismatch + P_fam_err / scale["P"]
+        per_obs = {k: SAFETY * sum(c[k] for c in comps.values()) + ROUNDING for k in names}
+        per_obs["epsilon"] = per_obs["P"]  # epsilon = (d-1) P
+        condensate_error = per_obs.pop("condensate")  # reported, not a thermodynamic observable
+        error = max(per_obs.values())
         target = abs(o["x"] - x) / x
         residual = max(m.residual, m.src_ratio)
         problems = settings.problems(error, residual)
         if not target <= 1e-2 * settings.accept_error:
             problems.append(f"target mismatch {target:.3g} > accept_error / 100")
+        if problems and error > settings.accept_error:
+            problems[0] += f" (largest in {max(per_obs, key=per_obs.get)})"
+        f2 = T ** (d - 2)
+        P_TT, P_Tmu, P_mumu = P_TT * f2, sign * P_Tmu * f2, P_mumu * f2
+        s, rho, P = vals["s_hat"] * T ** (d - 1), sign * vals["rho_hat"] * T ** (d - 1), vals["p_hat"] * T**d
+        P_check = P_fam * T**d
         return PointResult(
             **common, s=s, rho=rho, epsilon=(d - 1) * P, P=P, chi2=P_mumu,
-            cs2=self._cs2(T, mu, s, rho, P_TT, P_Tmu, P_mumu), P_check=P_check, trace_anomaly=0.0,
+            cs2=cs2, P_check=P_check, trace_anomaly=0.0,
             stability=self._stability(P_TT, P_Tmu, P_mumu),
             status=Status.NOT_CONVERGED if problems else Status.OK,
             message="; ".join(problems) or f"converged: {m.niter} Newton steps, {work.shots} shots",
-            nfev=work.nfev + tight_work.nfev, nsteps=work.nsteps + tight_work.nsteps, niter=m.niter,
+            nfev=work.nfev + var_work.nfev, nsteps=work.nsteps + var_work.nsteps, niter=m.niter,
             residual=residual, error_estimate=error, wall_time=time.perf_counter() - t0,
-            extra={"phase": "condensed", "condensate": o["O_hat"] * T**D, **onset_extra,
+            extra={"phase": "condensed", "condensate": vals["O_hat"] * T**D, **onset_extra,
                    "horizon_psi0": m.s, "horizon_E": m.E, "source_over_vev": m.src_ratio,
                    "radial_charge_drift": m.residual, "P_mismatch": P_mismatch, "P_check_error": P_fam_err * T**d,
-                   "deriv_error": deriv_err, "maxwell_mismatch": float(maxwell), "target_mismatch": target,
-                   "shots": work.shots + tight_work.shots},
+                   "deriv_error": max(per_obs["chi2"], per_obs["cs2"]), "maxwell_mismatch": maxwell,
+                   "target_mismatch": target, "shots": work.shots + var_work.shots,
+                   **{f"error_{c}": SAFETY * max(v.values()) for c, v in comps.items()},
+                   "error_by_observable": per_obs, "condensate_error": condensate_error},
         )
 
+
+#: error-estimate constants of the condensed branch (module docstring)
+OFFSET_FACTOR = 10.0
+#: measured: the shots change by a factor 78-82 per decade of horizon offset (1e-6 to 1e-4, sc-demo)
+OFFSET_ORDER = 1.8
+#: the read-out variant integrates this much further in t = log r
+T_END_EXTRA = 4.0
+#: derivative shots are this much tighter than the production tolerance (floored at 2.3e-14)
+DERIV_TIGHTER = 1e4
+#: the family derivatives step fd_step * FD_SCALE relative to psi0 and E (the O(h^4) remainder
+#: of the extrapolation dominates at fd_step = 1e-3; the noise at rtol/1e4 stays below 1e-10)
+FD_SCALE = 0.25
+#: safety factor on the summed components (common practice, no source)
+SAFETY = 2.0
+#: relative rounding floor
+ROUNDING = 1e-14
+#: rho relative to max(|rho|, RHO_FLOOR s); s relative to max(|s|, RHO_FLOOR |mu rho|/T)
+RHO_FLOOR = 1e-3
 
 #: per-process cache: (physics spec without id, rtol, horizon_offset) -> onset, family, brane
 _CACHE: dict = {}
