@@ -59,7 +59,7 @@ def one_charge_rows(one_charge):
 
 
 def test_one_charge_both_branches_against_the_closed_form(one_charge_rows):
-    # bar: 1e-8 relative in s, rho (the accuracy bar) on the stable branch, every stable row
+    # bar: 1e-8 relative in s, rho (the accuracy a row marked ok promises) on the stable branch, every stable row
     # ok. Both branches: a row that says ok is within accept_error (1e-8) of the closed form, and
     # every row's error estimate bounds its actual error. Deep on the unstable branch the boundary
     # read-out at Delta = 2 drifts with where the shot stops; the read-out check must catch it there

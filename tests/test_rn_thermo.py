@@ -35,7 +35,7 @@ def test_n4_sym_entropy_at_zero_density(method):
 @pytest.mark.parametrize("x", [0.0, 0.7, 3.0, 10.0, -4.0])
 def test_shooting_matches_closed_form(d, x):
     # Closed form: Chamblin, Emparan, Johnson & Myers 1999, Phys. Rev. D 60, 064018; normalisation
-    # of Hartnoll 2009, Class. Quant. Grav. 26, 224002. Bar from the issue: 1e-8 relative.
+    # of Hartnoll 2009, Class. Quant. Grav. 26, 224002. Bar: 1e-8 relative, the default accept_error.
     m = RNModel("m", d, kappa_sq=0.8, e_sq=1.7)
     T = 0.37
     c, n = one(m, T, x * T, CLOSED), one(m, T, x * T, SHOOT)

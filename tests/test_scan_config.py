@@ -3,7 +3,7 @@
 Where the expectations come from: every check in this file is the project's own documented config
 contract (README "Command line" and "Models", ``workflow/schemas/config.schema.yaml``, the
 ``InputError`` docstring in ``holoscan/errors.py``, the rule in DEVELOPERS.md that bad input raises
-only ``InputError`` before any work, and the scan keys listed in the issue) -- config contract
+only ``InputError`` before any work, and the documented scan keys) -- config contract
 documented in README / schema (common practice, no source). The point counts of the positive test
 are computed here independently with numpy from the grid spec in ``config/config.yaml``.
 
@@ -226,7 +226,7 @@ CASES = [
 
 
 def test_cases_are_distinct_and_enough():
-    # The issue asks for at least 25 kinds of malformed config.
+    # At least 25 kinds of malformed config are covered.
     ids = [c[0] for c in CASES]
     assert len(ids) == len(set(ids)) >= 25
 
@@ -454,7 +454,7 @@ def test_cli_check_bad_config(tmp_path, case):
 
 
 # ---------------------------------------------------------------------------------------------------
-# 4. Snakemake: a bad config stops at parse time, before any job (the issue's acceptance point).
+# 4. Snakemake: a bad config stops at parse time, before any job.
 # ---------------------------------------------------------------------------------------------------
 def test_snakemake_stops_before_any_job(tmp_path):
     shutil.copy(REPO / "Snakefile", tmp_path / "Snakefile")
