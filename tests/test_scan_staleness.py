@@ -1,4 +1,4 @@
-"""Point identity and staleness through the real Snakemake workflow (scenarios a-h of the scan issue).
+"""Point identity and staleness through the real Snakemake workflow (scenarios a to h: no change, extended axes, a changed model, tolerance or physics code, damaged segments, kills).
 
 Expectations are the project's own contract (only stale points are solved; a table never mixes code
 versions; interrupted runs lose nothing): common practice for incremental build systems, no source.
