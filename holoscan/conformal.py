@@ -64,7 +64,7 @@ from .bulk.charged_brane import ChargedBrane, HorizonData
 from .engine import Counters, ShootSettings, shoot
 from .result import PointResult, Status
 from .settings import SolverSettings
-from .thermo import cs2_from_hessian, hessian_from_jacobians, local_stability
+from .thermo import RHO_FLOOR, cs2_from_hessian, hessian_from_jacobians, local_stability
 
 _DENSITIES = ("s", "rho", "epsilon", "P")
 OBSERVABLES = ("s", "rho", "epsilon", "P", "chi2", "cs2")
@@ -78,8 +78,6 @@ A_END_EXTRA = 2.0
 SAFETY = 2.0
 #: relative rounding floor of the read-out and rescaling in double precision
 ROUNDING = 1e-14
-#: rho is measured relative to max(|rho|, RHO_FLOOR * s)
-RHO_FLOOR = 1e-3
 #: derivative shots are this much tighter than the production tolerance
 DERIV_TIGHTER = 1e4
 
@@ -177,13 +175,11 @@ def solve_unsourced(brane: ChargedBrane, kappa_sq: float, T: float, mu: float, s
     ss = settings.shoot_settings()
     tight = ss.tighter()
     sd = ss.tighter(DERIV_TIGHTER)
-    sd_loose = ShootSettings(rtol=sd.rtol * 10.0, atol=sd.atol, method=sd.method,
-                             horizon_offset=sd.horizon_offset, residual_samples=sd.residual_samples)
+    sd_loose = sd.varied(rtol_factor=10.0)
     far = ChargedBrane(d, brane.V, brane.f, A_end=brane.A_end + A_END_EXTRA)
 
     def offset(s: ShootSettings) -> ShootSettings:
-        return ShootSettings(rtol=s.rtol, atol=s.atol, method=s.method,
-                             horizon_offset=s.horizon_offset * OFFSET_FACTOR, residual_samples=s.residual_samples)
+        return s.varied(offset_factor=OFFSET_FACTOR)
 
     cnt = Counters()
     common = dict(model_id=model_id, kind=kind, d=d, method="shooting", T=T, mu=mu,

@@ -28,13 +28,13 @@ from __future__ import annotations
 
 import math
 import time
+from dataclasses import replace
 
 import numpy as np
 
 from .atlas.brane_map import U_MAX, BraneMap
 from .atlas.resolution import FLAG_NAMES
 from .emd_solver import family_curve
-from .engine import ShootSettings
 from .result import PointResult, Status
 
 D_BOUNDARY = 4
@@ -47,13 +47,10 @@ D_BOUNDARY = 4
 OFFSET_VARIATION = 10.0
 RTOL_VARIATION = 10.0
 READOUT_CHECK = 2.0
-#: observables covered by the error estimate, in the order of ``extra["errors"]``
+#: observables covered by the error estimate, in the order of ``extra["error_by_observable"]``
 ERROR_OBSERVABLES = ("s", "rho", "P", "epsilon", "chi2", "cs2")
-#: floors of the relative measures: rho against max(|rho|, s), chi2 against max(|chi2|, s/T), cs2
-#: against max(|cs2|, CS2_FLOOR) (rho and chi2 of a neutral brane may vanish; cs2 dips near a
-#: critical point)
-CS2_FLOOR = 0.1
-#: added to every per-observable estimate: double-precision round-off of the read-out and the Hessian
+#: double-precision round-off of the read-out and the Hessian: added to every per-observable
+#: estimate, and to the absolute errors of s and rho times the larger of |s|, |rho|
 ROUNDOFF = 1e-13
 _GL_X, _GL_W = np.polynomial.legendre.leggauss(24)
 
@@ -67,17 +64,6 @@ def _at_fixed_target(delta, grads, fi, oi):
     dq = np.column_stack([(GF[:, 1, 1] * dF[:, 0] - GF[:, 0, 1] * dF[:, 1]) / det,
                           (-GF[:, 1, 0] * dF[:, 0] + GF[:, 0, 0] * dF[:, 1]) / det])
     return delta[:, oi] - np.einsum("mij,mj->mi", GO, dq)
-
-
-def _hessian(Jt, Jd, f2):
-    """Hessian of P in (T, mu) from Jacobians of (T, mu) and (s, rho) along two directions, times
-    ``f2``, and the Maxwell-relation mismatch."""
-    with np.errstate(all="ignore"):
-        H = Jd @ np.linalg.inv(Jt)
-    s_mu, rho_T = H[:, 0, 1], H[:, 1, 0]
-    maxwell = np.where((s_mu == 0) & (rho_T == 0), 0.0,
-                       np.abs(s_mu - rho_T) / np.maximum(np.maximum(np.abs(s_mu), np.abs(rho_T)), 1e-300))
-    return H[:, 0, 0] * f2, 0.5 * (s_mu + rho_T) * f2, H[:, 1, 1] * f2, maxwell
 
 
 # -- seeds -------------------------------------------------------------------------------------------
@@ -137,8 +123,6 @@ def family_seeds(sh, x):
 
 def _note_beyond(r: PointResult, note: str) -> PointResult:
     """The result with a note that a branch may lie beyond the solver's reach."""
-    from dataclasses import replace
-
     return replace(r, message=f"{r.message}; {note}", extra={**r.extra, "beyond_reach": note})
 
 
@@ -260,7 +244,7 @@ class BatchSolver:
 
     def _rows(self, T, mu, C, norms, iters) -> list[dict]:
         """PointResult fields (all but branch and wall_time) for every root, vectorised."""
-        from .thermo import cs2_from_hessian
+        from .thermo import CS2_FLOOR, RHO_FLOOR, cs2_from_hessian, hessian_from_jacobians
 
         m, d = self.map, D_BOUNDARY
         L = getattr(self.model, "energy_scale", 1.0)
@@ -277,7 +261,7 @@ class BatchSolver:
         det, det_v = {}, {}
         nodes = m.node_settings
         o = self.sh.observe_many(Q, nodes, record=True, detail=det)
-        varied = ShootSettings(rtol=RTOL_VARIATION * nodes.rtol, horizon_offset=OFFSET_VARIATION * nodes.horizon_offset)
+        varied = nodes.varied(rtol_factor=RTOL_VARIATION, offset_factor=OFFSET_VARIATION)
         ov = self.sh.observe_many(Q, varied, detail=det_v, readout_check=READOUT_CHECK)
         ov_early = det_v["early"]
         ok_shot = np.all(np.isfinite(o), axis=1) & np.all(np.isfinite(ov), axis=1) & np.all(np.isfinite(ov_early), axis=1)
@@ -298,16 +282,23 @@ class BatchSolver:
         sign = np.where(mu < 0, -1.0, 1.0)
         Jt, Jd, s, rho, f2 = self._jacobians(T, vals, grads, L)
         Jt_t, Jd_t, _, _, _ = self._jacobians(T, vals, grads_t, L)
-        P_TT, P_Tmu, P_mumu, maxwell = _hessian(Jt, Jd, f2)
-        P_TTt, P_Tmut, P_mumut, _ = _hessian(Jt_t, Jd_t, f2)
+        P_TT, P_Tmu, P_mumu, maxwell = hessian_from_jacobians(Jt, Jd)
+        P_TT, P_Tmu, P_mumu = P_TT * f2, P_Tmu * f2, P_mumu * f2
+        P_TTt, P_Tmut, P_mumut, _ = hessian_from_jacobians(Jt_t, Jd_t)
+        P_TTt, P_Tmut, P_mumut = P_TTt * f2, P_Tmut * f2, P_mumut * f2
         stable = (P_TT > 0) & (P_TT * P_mumu - P_Tmu**2 > 0)
         # |d s|, |d rho| in config units
         unit = L ** (d - 1) if self.sourced else T ** (d - 1)
         ds, drho = dO[:, 0] * unit, dO[:, 1] * unit
+        # round-off of the read-out is relative to the larger density, also where rho is tiny
+        ds, drho = ds + ROUNDOFF * np.abs(s), drho + ROUNDOFF * np.maximum(np.abs(s), np.abs(rho))
         with np.errstate(all="ignore"):
             e_s = ds / np.abs(s)
-            e_rho = drho / np.maximum(np.abs(rho), np.abs(s))
+            e_rho = drho / np.maximum(np.abs(rho), RHO_FLOOR * np.abs(s))
             e_vals = np.maximum(e_s, e_rho)
+            # the error of the integrand s dT + rho dmu of the pressure's path, rho's measured
+            # against the larger of the two densities
+            e_path = np.maximum(e_s, drho / np.maximum(np.abs(rho), np.abs(s)))
         if self.sourced:
             P1, P2, P0err, P_parts = self._pressure(C)
             P, P_check = P1 * L**d, P2 * L**d
@@ -316,8 +307,9 @@ class BatchSolver:
             with np.errstate(all="ignore"):
                 P_mismatch = np.abs(P1 - P2) / np.maximum(np.abs(P1), 1e-300)
                 # route mismatch, the reference's own error, and the error of s and rho carried
-                # along the path (their relative error times the size of the path's parts)
-                dP = (np.abs(P1 - P2) + P0err + e_vals * P_parts) * L**d
+                # along the path (the densities' relative error, against the larger one, times the
+                # size of the path's parts)
+                dP = (np.abs(P1 - P2) + P0err + e_path * P_parts) * L**d
             k_ref = self._P0().k_ref
         else:
             P = (T * s + x * T * rho) / d
@@ -330,14 +322,16 @@ class BatchSolver:
             e_P = dP / np.abs(P)
             e_eps = (T * ds + x * T * drho + dP) / np.abs(eps)
             # derivatives: the atlas less its last two orders, plus the values' own error
-            e_chi2 = np.abs(P_mumu - P_mumut) / np.maximum(np.abs(P_mumu), np.abs(s) / T) + e_vals
+            e_chi2 = np.abs(P_mumu - P_mumut) / np.abs(P_mumu) + e_vals
             e_cs2 = np.abs(cs2 - cs2_t) / np.maximum(np.abs(cs2), CS2_FLOOR) + e_vals
             per = np.column_stack([e_s, e_rho, e_P, e_eps, e_chi2, e_cs2])
             per = np.where(np.isnan(per), np.inf, per + ROUNDOFF)
             error = np.max(per, axis=1)
             scale = np.max(np.maximum(np.abs(grads), 1e-300), axis=2, keepdims=True)
             deriv_err = np.max(np.abs(grads - grads_t) / scale, axis=(1, 2))
-            rel = {k: np.max(v / np.maximum(np.abs(vals[:, oi]), 1e-300), axis=1) for k, v in shifts.items()}
+            scale_O = np.column_stack([np.abs(vals[:, oi[0]]), np.maximum(np.abs(vals[:, oi[1]]),
+                                                                          RHO_FLOOR * np.abs(vals[:, oi[0]]))])
+            rel = {k: np.max(v / scale_O, axis=1) for k, v in shifts.items()}
         flags = m.atlas.flags(leaf)
         tails = m.atlas.tails(leaf)
         rows = []
@@ -349,7 +343,7 @@ class BatchSolver:
                      "deriv_error": float(deriv_err[k]), "atlas_leaf": FLAG_NAMES[int(flags[k])],
                      "atlas_tail": float(tails[k]), "shots": 2, "maxwell_mismatch": float(maxwell[k]),
                      "trace_anomaly": float(trace[k]),
-                     "errors": {n: float(per[k, i]) for i, n in enumerate(ERROR_OBSERVABLES)}}
+                     "error_by_observable": {n: float(per[k, i]) for i, n in enumerate(ERROR_OBSERVABLES)}}
             if self.sourced:
                 extra.update(P_route2=float(P_check[k]), P_mismatch=float(P_mismatch[k]), P_reference_power=k_ref,
                              P_reference_error=float(P0err[k] * L**d))

@@ -10,6 +10,13 @@ from __future__ import annotations
 import numpy as np
 
 
+#: floors of relative error measures, shared by every solve path (README "Error evidence"): rho
+#: vanishes at mu = 0 and is measured against max(|rho|, RHO_FLOOR s); cs2 dips towards 0 at a
+#: critical point and is measured against max(|cs2|, CS2_FLOOR)
+RHO_FLOOR = 1e-3
+CS2_FLOOR = 0.1
+
+
 def cs2_from_hessian(T, mu, s, rho, P_TT, P_Tmu, P_mumu):
     """Speed of sound squared ``(dP/d epsilon)`` at fixed ``s/rho``.
 
@@ -34,10 +41,10 @@ def hessian_from_jacobians(J_targets: np.ndarray, J_densities: np.ndarray):
 
     Parameters
     ----------
-    J_targets : array (2, 2)
+    J_targets : array (2, 2), or (..., 2, 2) for many points at once
         ``[[dT/dq1, dT/dq2], [dmu/dq1, dmu/dq2]]`` for any two independent parameters ``q``
         (horizon data, or one datum and the scaling of a conformal model).
-    J_densities : array (2, 2)
+    J_densities : array (2, 2), or (..., 2, 2)
         ``[[ds/dq1, ds/dq2], [drho/dq1, drho/dq2]]`` along the same directions.
 
     Returns
@@ -46,8 +53,13 @@ def hessian_from_jacobians(J_targets: np.ndarray, J_densities: np.ndarray):
         ``P_Tmu`` is the mean of ``ds/dmu`` and ``drho/dT``; ``maxwell_mismatch`` is their relative
         difference (zero for exact thermodynamics, a consistency check of the solution).
     """
-    H = np.asarray(J_densities, float) @ np.linalg.inv(np.asarray(J_targets, float))
-    s_mu, rho_T = H[0, 1], H[1, 0]
-    scale = max(abs(s_mu), abs(rho_T), 1e-300)
-    mismatch = abs(s_mu - rho_T) / scale if (s_mu or rho_T) else 0.0
-    return H[0, 0], 0.5 * (s_mu + rho_T), H[1, 1], mismatch
+    Jt, Jd = np.asarray(J_targets, float), np.asarray(J_densities, float)
+    with np.errstate(all="ignore"):
+        H = Jd @ np.linalg.inv(Jt)
+    s_mu, rho_T = H[..., 0, 1], H[..., 1, 0]
+    with np.errstate(all="ignore"):
+        mismatch = np.where((s_mu == 0) & (rho_T == 0), 0.0,
+                            np.abs(s_mu - rho_T) / np.maximum(np.maximum(np.abs(s_mu), np.abs(rho_T)), 1e-300))
+    if Jt.ndim == 2:
+        return H[0, 0], 0.5 * (s_mu + rho_T), H[1, 1], float(mismatch)
+    return H[..., 0, 0], 0.5 * (s_mu + rho_T), H[..., 1, 1], mismatch

@@ -32,6 +32,7 @@ import pytest
 import yaml
 
 from holoscan import Status, model_from_block, SolverSettings
+from test_charged_scalar import cheb  # Chebyshev differentiation matrix (Trefethen 2000)
 
 ROOT = __import__("pathlib").Path(__file__).resolve().parents[1]
 
@@ -40,15 +41,6 @@ def demo_block():
     cfg = yaml.safe_load((ROOT / "config" / "config.yaml").read_text())
     (blk,) = [m for m in cfg["models"] if m["id"] == "sc-demo"]
     return {k: v for k, v in blk.items() if k not in ("grid", "points_per_job")}
-
-
-def cheb(N):
-    """Chebyshev differentiation matrix on x_j = cos(pi j/N) (Trefethen 2000, Spectral Methods in MATLAB)."""
-    x = np.cos(np.pi * np.arange(N + 1) / N)
-    c = np.hstack([2.0, np.ones(N - 1), 2.0]) * (-1.0) ** np.arange(N + 1)
-    X = np.tile(x, (N + 1, 1)).T
-    Dm = np.outer(c, 1.0 / c) / (X - X.T + np.eye(N + 1))
-    return Dm - np.diag(Dm.sum(axis=1)), x
 
 
 class Collocation:

@@ -17,7 +17,7 @@ and ``message`` say what went wrong.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Protocol
 
 import numpy as np
@@ -65,13 +65,14 @@ class ShootSettings:
     def tighter(self, factor: float = 100.0) -> "ShootSettings":
         """Same settings with tolerances divided by ``factor`` (for an error estimate, or for shots
         that are differenced, since differencing divides their error by the step)."""
-        return ShootSettings(
-            rtol=max(self.rtol / factor, 2.3e-14),
-            atol=self.atol / factor,
-            method=self.method,
-            horizon_offset=self.horizon_offset,
-            residual_samples=self.residual_samples,
-        )
+        return replace(self, rtol=max(self.rtol / factor, 2.3e-14), atol=self.atol / factor)
+
+    def varied(self, rtol_factor: float = 1.0, offset_factor: float = 1.0) -> "ShootSettings":
+        """Same settings with the tolerances times ``rtol_factor`` (``rtol`` floored at 2.3e-14,
+        the double-precision limit of the stepper) and the horizon offset times ``offset_factor``:
+        the variants an error estimate compares with."""
+        return replace(self, rtol=max(self.rtol * rtol_factor, 2.3e-14), atol=self.atol * rtol_factor,
+                       horizon_offset=self.horizon_offset * offset_factor)
 
 
 @dataclass

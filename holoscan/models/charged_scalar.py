@@ -88,7 +88,7 @@ from ..errors import InputError
 from ..hairy_solver import Family, SolveError, Work, family_gradients, find_onset, solve_member
 from ..result import PointResult, Status
 from ..settings import SolverSettings
-from ..thermo import cs2_from_hessian, hessian_from_jacobians, local_stability
+from ..thermo import RHO_FLOOR, cs2_from_hessian, hessian_from_jacobians, local_stability
 from .rn import RNModel
 
 ONSET_METHOD = "zero mode, shooting"
@@ -440,8 +440,6 @@ FD_SCALE = 0.25
 SAFETY = 2.0
 #: relative rounding floor
 ROUNDING = 1e-14
-#: rho relative to max(|rho|, RHO_FLOOR s); s relative to max(|s|, RHO_FLOOR |mu rho|/T)
-RHO_FLOOR = 1e-3
 
 #: per-process cache: (physics spec without id, rtol, horizon_offset) -> onset, family, brane
 _CACHE: dict = {}

@@ -36,12 +36,11 @@ from ..conformal import solve_unsourced
 from ..emd_batch import batch_solver
 from ..emd_pressure import ZeroDensityPressure, lobatto, path_integral
 from ..emd_solver import Counters, EMDShooter, find_branches
-from ..engine import ShootSettings
 from ..errors import InputError
 from ..expr import ParsedCoupling
 from ..result import PointResult, Status
 from ..settings import SolverSettings
-from ..thermo import cs2_from_hessian, hessian_from_jacobians, local_stability
+from ..thermo import RHO_FLOOR, cs2_from_hessian, hessian_from_jacobians, local_stability
 
 D_BOUNDARY = 4
 #: horizon-scalar range and nodes of an unsourced family's coarse scan (and atlas)
@@ -225,7 +224,7 @@ def solve_family(model: EMDModel, sh: EMDShooter, T: float, mu: float, settings:
         except ArithmeticError as exc:
             out.append(PointResult(**common, branch=b, status=Status.FAILED, message=str(exc)))
             continue
-        ot = sh.observe(q, ShootSettings(rtol=tight.rtol, horizon_offset=10.0 * ss.horizon_offset), None)
+        ot = sh.observe(q, tight.varied(offset_factor=10.0), None)
         xs, sh_, rh = o[0], o[2], o[3]
         s, rho = sh_ * T ** (d - 1), rh * T ** (d - 1)
         P = (T * s + x * T * rho) / d
@@ -236,9 +235,9 @@ def solve_family(model: EMDModel, sh: EMDShooter, T: float, mu: float, settings:
         f2 = T ** (d - 2)
         P_TT, P_Tmu, P_mumu = P_TT * f2, P_Tmu * f2, P_mumu * f2
         cs2 = cs2_from_hessian(T, x * T, s, rho, P_TT, P_Tmu, P_mumu)
-        # floors: mu/T against max(|mu/T|, 1), rho_hat against max(|rho_hat|, s_hat)
+        # floors: mu/T against max(|mu/T|, 1), rho_hat against max(|rho_hat|, RHO_FLOOR s_hat)
         err = math.nan if ot is None else float(np.max(np.abs(ot[[0, 2, 3]] - o[[0, 2, 3]]) / np.maximum(
-            np.abs(o[[0, 2, 3]]), [1.0, o[2], o[2]])))
+            np.abs(o[[0, 2, 3]]), [1.0, o[2], RHO_FLOOR * o[2]])))
         err = max(err, deriv_err) + 1e-13
         problems = settings.problems(err, cnt.residual)
         out.append(PointResult(
@@ -269,8 +268,7 @@ def _pressure_reference(sh: EMDShooter, ss) -> ZeroDensityPressure:
         tight = ss.tighter()
 
         def samples(phi0s, offset_factor):
-            shot = ShootSettings(rtol=tight.rtol, horizon_offset=tight.horizon_offset * offset_factor)
-            o = sh.observe_many(np.column_stack([phi0s, np.zeros_like(phi0s)]), shot)
+            o = sh.observe_many(np.column_stack([phi0s, np.zeros_like(phi0s)]), tight.varied(offset_factor=offset_factor))
             return np.array([_physical(r, d, D)[[0, 2]] for r in o])
 
         try:
@@ -341,10 +339,10 @@ def solve_sourced(model: EMDModel, sh: EMDShooter, T: float, mu: float, settings
         P_TT, P_Tmu, P_mumu = P_TT * f2, P_Tmu * f2, P_mumu * f2
         eps = T * s + x * T * rho - P
         cs2 = cs2_from_hessian(T, x * T, s, rho, P_TT, P_Tmu, P_mumu)
-        ot = sh.observe(q, ShootSettings(rtol=tight.rtol, horizon_offset=10.0 * ss.horizon_offset), None)
-        # floors: mu against max(|mu|, T), rho against max(|rho|, s) (both vanish at mu = 0)
+        ot = sh.observe(q, tight.varied(offset_factor=10.0), None)
+        # floors: mu against max(|mu|, T), rho against max(|rho|, RHO_FLOOR s) (both vanish at mu = 0)
         err = math.nan if ot is None else float(np.max(np.abs(_physical(ot, d, D) - X) / np.maximum(
-            np.abs(X), [X[0], X[0], X[2], X[2]])))
+            np.abs(X), [X[0], X[0], X[2], RHO_FLOOR * X[2]])))
         P_mismatch = abs(P1 - P2) / max(abs(P1), 1e-300)
         # derivatives (chi2, cs2): the gradients' own error, relative to the gradients' scale
         deriv_rel = float(np.max(J_err / np.maximum(np.max(np.abs(J), axis=1, keepdims=True), 1e-300)))
