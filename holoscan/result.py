@@ -2,12 +2,20 @@
 
 A solve never raises for a physics or convergence problem: it returns a :class:`PointResult` whose
 :attr:`status` says what happened and whose :attr:`message` says why, so that a scan can go on.
+
+Double-precision range. A row is ``ok`` only if every number it reports is an ordinary double:
+:func:`range_problems` lists the observables, the second pressure, the trace anomaly and the reduced
+ratios that are NaN, infinite or subnormal (non-zero below ``sys.float_info.min`` = 2.2e-308, where
+a double keeps fewer than 53 bits), and :func:`checked` turns an ``ok`` row with any of them into
+``out of range``. :func:`out_of_range` is the row of a target that cannot be solved or reported in
+double precision at all.
 """
 from __future__ import annotations
 
 import enum
 import math
-from dataclasses import asdict, dataclass, field
+import sys
+from dataclasses import asdict, dataclass, field, replace
 
 
 class Status(str, enum.Enum):
@@ -17,6 +25,9 @@ class Status(str, enum.Enum):
     NOT_CONVERGED = "not converged"
     FAILED = "failed"
     NO_SOLUTION = "no solution"
+    #: a number of the row (or the target's powers it is reduced by) is not an ordinary double:
+    #: it overflowed, underflowed to zero or to a subnormal number, or is NaN
+    OUT_OF_RANGE = "out of range"
 
 
 #: Observable fields of a :class:`PointResult`, in the order tables use. Units (L = 1, boundary
@@ -80,13 +91,16 @@ class PointResult:
         return -self.P
 
     def ratios(self) -> dict:
-        """Dimensionless ratios s/T^(d-1), rho/T^(d-1), P/T^d, chi2/T^(d-2)."""
+        """Dimensionless ratios s/T^(d-1), rho/T^(d-1), P/T^d, chi2/T^(d-2).
+
+        NaN where the power of T is not an ordinary double (it overflows, or underflows to zero or
+        to a subnormal number): the ratio cannot be formed in double precision there."""
         d, T = self.d, self.T
         return {
-            "s_hat": self.s / T ** (d - 1),
-            "rho_hat": self.rho / T ** (d - 1),
-            "P_hat": self.P / T**d,
-            "chi2_hat": self.chi2 / T ** (d - 2),
+            "s_hat": _reduce(self.s, T, d - 1),
+            "rho_hat": _reduce(self.rho, T, d - 1),
+            "P_hat": _reduce(self.P, T, d),
+            "chi2_hat": _reduce(self.chi2, T, d - 2),
         }
 
     def to_dict(self) -> dict:
@@ -97,3 +111,61 @@ class PointResult:
         out["P_mismatch"] = abs(self.P - self.P_check) / abs(self.P) if self.P else (0.0 if self.P == self.P_check else math.nan)
         out.update(self.ratios())
         return out
+
+
+def _reduce(x: float, T: float, n: int) -> float:
+    """``x / T**n``, or NaN when ``T**n`` is not an ordinary double (see :func:`is_ordinary`)."""
+    try:
+        p = T**n
+    except OverflowError:
+        return math.nan
+    return x / p if is_ordinary(p) and p != 0.0 else math.nan
+
+
+def is_ordinary(x) -> bool:
+    """True for a finite double that is zero or at least ``sys.float_info.min`` (2.2e-308) in
+    magnitude: not NaN, not infinite, not subnormal (a subnormal keeps fewer than 53 bits)."""
+    try:
+        x = float(x)
+    except (TypeError, ValueError):
+        return False
+    return math.isfinite(x) and (x == 0.0 or abs(x) >= sys.float_info.min)
+
+
+#: the numbers of a row that must be ordinary doubles for it to be ``ok``
+CHECKED = (*OBSERVABLES, "P_check", "trace_anomaly")
+
+
+def range_problems(r: PointResult) -> list[str]:
+    """What in ``r`` is not an ordinary double (empty when nothing is): the fields of
+    :data:`CHECKED` and the reduced ratios of :meth:`PointResult.ratios`, each named with its value."""
+    values = {k: getattr(r, k) for k in CHECKED}
+    values.update(r.ratios())
+    out = []
+    for k, x in values.items():
+        if not is_ordinary(x):
+            what = "subnormal (precision lost)" if isinstance(x, (int, float)) and math.isfinite(x) else "not finite"
+            out.append(f"{k} = {x!r} is {what}")
+    return out
+
+
+def checked(r: PointResult) -> PointResult:
+    """``r`` itself, unless it is ``ok`` while :func:`range_problems` finds something: then the
+    same row with status ``out of range`` and a message naming each number outside the range of
+    double precision (the values are kept, for inspection)."""
+    if r.status is not Status.OK:
+        return r
+    problems = range_problems(r)
+    if not problems:
+        return r
+    return replace(r, status=Status.OUT_OF_RANGE,
+                   message="outside double precision at this target: " + "; ".join(problems)
+                   + (f" (solver: {r.message})" if r.message else ""))
+
+
+def out_of_range(*, model_id: str, kind: str, d: int, method: str, T: float, mu: float, reason: str,
+                 wall_time: float = 0.0) -> PointResult:
+    """The row of a target that cannot be solved in double precision: observables NaN, status
+    ``out of range``, ``reason`` as the message."""
+    return PointResult(model_id=model_id, kind=kind, d=d, method=method, T=T, mu=mu,
+                       status=Status.OUT_OF_RANGE, message=reason, wall_time=wall_time)

@@ -128,11 +128,13 @@ def test_field_equation_residual_detects_wrong_fields():
 
 def test_failures_are_returned_not_raised():
     # A scan needs failed points as records (common practice, no source): an impossible accuracy bar
-    # gives "not converged", an unreachable target "failed"; neither raises.
+    # gives "not converged", an unreachable target "failed" (mu/T = 1e30 lies beyond every shot
+    # before the extremal limit), a temperature whose T^4 underflows "out of range"; none raises.
     m = RNModel("m", 4, kappa_sq=1.0, e_sq=1.0)
     r = one(m, 1.0, 1.0, SolverSettings(method="shooting", accept_error=1e-30))
     assert r.status is Status.NOT_CONVERGED and "accept_error" in r.message
     assert math.isfinite(r.s)
+    r = one(m, 1e-30, 1.0, SHOOT)
+    assert r.status is Status.FAILED and "not bracketed" in r.message
     r = one(m, 1e-300, 1.0, SHOOT)
-    assert r.status in (Status.FAILED, Status.NOT_CONVERGED)
-    assert r.message
+    assert r.status is Status.OUT_OF_RANGE and "T = 1e-300" in r.message and math.isnan(r.P)
