@@ -1,11 +1,13 @@
 """holoscan's production solve against the independent reference (tests/reference).
 
     .venv/bin/python bench/reference_compare.py [--quick] [--procs 2] [--accept 1e-8]
+                                                [--only onecharge,demo,second] [--out DIR]
 
 (a) the demo grid (T in linspace(0.17, 0.27, 21), mu in linspace(0, 1, 21)) against the reference
     solver; (b) a 60 x 60 one-charge grid (T in linspace(0.4, 2, 60), mu/T in linspace(0, 2, 60))
     against the closed form; (c) the second invented model on T in linspace(0.2, 0.6, 15),
     mu in linspace(0, 1, 15) against the reference solver. Prints the counts of reference/compare.py.
+With --out, each part's per-row comparison (actual errors, estimates) goes to DIR/<part>.csv.
 The reference takes a few seconds per branch (plus a one-off scan per model and process), so (a)
 and (c) take tens of minutes; --quick keeps every 5th point of (a) and (c) and every 6th of (b).
 """
@@ -58,7 +60,16 @@ def holoscan_rows(V, f, source, targets):
     return out
 
 
-def run(name, V, f, targets, procs, accept):
+def _save(out, name, c):
+    if out:
+        import pandas as pd
+        os.makedirs(out, exist_ok=True)
+        pd.DataFrame(c["details"]).to_csv(os.path.join(out, f"{name}.csv"), index=False)
+        if c["missed"]:
+            pd.DataFrame(c["missed"]).to_csv(os.path.join(out, f"{name}-missed.csv"), index=False)
+
+
+def run(name, V, f, targets, procs, accept, out=None):
     t0 = time.time()
     rows = holoscan_rows(V, f, True, targets)
     t1 = time.time()
@@ -68,7 +79,8 @@ def run(name, V, f, targets, procs, accept):
     c = compare(rows, refs, accept)
     nb = sum(len(v) for v in refs.values())
     print(format_counts(f"{name}: {len(targets)} points, {nb} reference branches", c, accept))
-    print(f"  holoscan {t1 - t0:.1f} s, reference {t2 - t1:.1f} s on {procs} processes")
+    print(f"  holoscan {t1 - t0:.1f} s, reference {t2 - t1:.1f} s on {procs} processes", flush=True)
+    _save(out, name, c)
     return c
 
 
@@ -77,22 +89,27 @@ def main():
     ap.add_argument("--quick", action="store_true")
     ap.add_argument("--procs", type=int, default=2)
     ap.add_argument("--accept", type=float, default=1e-8)
+    ap.add_argument("--only", default="onecharge,demo,second")
+    ap.add_argument("--out", default=None)
     a = ap.parse_args()
     step = 5 if a.quick else 1
     demo_t = [(float(T), float(mu)) for T in np.linspace(0.17, 0.27, 21) for mu in np.linspace(0, 1, 21)][::step]
     second_t = [(float(T), float(mu)) for T in np.linspace(0.2, 0.6, 15) for mu in np.linspace(0, 1, 15)][::step]
     oc_t = [(float(T), float(x * T)) for T in np.linspace(0.4, 2, 60) for x in np.linspace(0, 2, 60)][::6 if a.quick else 1]
 
-    # (b) one-charge against the closed form
-    t0 = time.time()
-    rows = holoscan_rows(ONECHARGE_V, ONECHARGE_F, False, oc_t)
-    refs = {(T, mu): [dict(p, T=T, mu=mu) for p in oc.points(T, mu)] for T, mu in oc_t}
-    c = compare(rows, refs, a.accept)
-    print(format_counts(f"one-charge: {len(oc_t)} points against the closed form", c, a.accept))
-    print(f"  holoscan {time.time() - t0:.1f} s")
-
-    run("demo", DEMO_V, DEMO_F, demo_t, a.procs, a.accept)
-    run("second", SECOND_V, SECOND_F, second_t, a.procs, a.accept)
+    parts = set(a.only.split(","))
+    if "onecharge" in parts:  # (b) against the closed form
+        t0 = time.time()
+        rows = holoscan_rows(ONECHARGE_V, ONECHARGE_F, False, oc_t)
+        refs = {(T, mu): [dict(p, T=T, mu=mu) for p in oc.points(T, mu)] for T, mu in oc_t}
+        c = compare(rows, refs, a.accept)
+        print(format_counts(f"one-charge: {len(oc_t)} points against the closed form", c, a.accept))
+        print(f"  holoscan {time.time() - t0:.1f} s", flush=True)
+        _save(a.out, "onecharge", c)
+    if "demo" in parts:
+        run("demo", DEMO_V, DEMO_F, demo_t, a.procs, a.accept, a.out)
+    if "second" in parts:
+        run("second", SECOND_V, SECOND_F, second_t, a.procs, a.accept, a.out)
 
 
 if __name__ == "__main__":
