@@ -10,7 +10,11 @@ Files (relative to ``results/<scan>/``), for every model of the scan:
 - ``figures/<model>-condensate.{png,pdf}``: the condensate against T/T_c (kind ``charged-scalar`` only);
 
 and once per scan ``figures/convergence.{png,pdf}`` (error estimate and first-law mismatch) and
-``figures/figures.json`` (the list of files with the code hash and version of the tables).
+``figures/figures.json`` (the list of files with the code hash and version of the tables, each
+figure's caption with its grid and units, the figures that are placeholders and why, and the files
+of an earlier config that were removed; see :mod:`.render`). Titles name the model and what is
+drawn; grid sizes and hashes are in the captions. A figure that cannot be drawn is a placeholder
+figure, so the command writes every file above and succeeds whatever the tables hold.
 
 This module does not import matplotlib: :func:`figure_files` is called when the workflow is parsed.
 The plotting modules import it (Agg backend, no display) when :func:`write_figures` runs.

@@ -6,7 +6,9 @@ epsilon, P`` when the solve is repeated with 100x tighter tolerances, ``P_mismat
 worst branch is shown, on one logarithmic colour scale shared by all panels; values at or below
 ``FLOOR`` (exact zeros of closed forms included) are drawn at ``FLOOR``. The solver's acceptance
 threshold (``accept_error``) is marked on the colour bar. Failed points (no value) and points where
-some branch did not converge are marked.
+some branch did not converge are marked. The colour scale spans the drawable values
+(:func:`.data.drawable`); a value that is NaN, infinite or beyond it leaves its cell blank and is
+counted in the caption.
 """
 from __future__ import annotations
 
@@ -17,7 +19,7 @@ import pandas as pd
 from matplotlib.colors import LogNorm
 from matplotlib.lines import Line2D
 
-from .data import ScanTables, log_T_axis, model_info
+from .data import DRAW_MAX, ScanTables, count_text, drawable, log_T_axis, model_info, provenance_text
 from .raster import nearest_raster
 from .style import BAD_MARKERS, FAILED_STATUSES, new_figure, no_data, plain_log_ticks, title
 
@@ -27,18 +29,28 @@ COLUMNS = (("error_estimate", "error_estimate"), ("P_mismatch", "P_mismatch"))
 
 @dataclass
 class ConvergenceFigure:
-    """The figure; ``panels[(model_id, column)] = (axes, per-point table)``; marked failed points."""
+    """The figure; ``panels[(model_id, column)] = (axes, per-point table)``; marked failed points;
+    the colour norm and the caption."""
 
     fig: object
     panels: dict = field(default_factory=dict)
     marked: dict = field(default_factory=dict)
+    norm: object = None
+    caption: str = ""
 
 
 def per_point(points: pd.DataFrame, model_id: str) -> pd.DataFrame:
-    """Worst value of each column over the branches at each grid point, and the point's status."""
-    p = points[points["model_id"] == model_id]
+    """Worst value of each column over the branches at each grid point, and the point's status.
+    A NaN or infinite value counts as the worst (it is not drawn, see the module docstring)."""
+    empty = pd.DataFrame(columns=["T", "mu", "status", *[c for c, _ in COLUMNS]])
+    if not len(points) or not {"model_id", "T", "mu", "status"} <= set(points.columns):
+        return empty
+    p = points[(points["model_id"] == model_id) & drawable(points["T"]) & drawable(points["mu"])]
     if not len(p):
-        return pd.DataFrame(columns=["T", "mu", "status", *[c for c, _ in COLUMNS]])
+        return empty
+    p = p.assign(**{c: (p[c].to_numpy(float) if c in p else np.nan) for c, _ in COLUMNS})
+    # NaN where a value exists but is not finite or drawable would hide it behind max(): mark as inf
+    p = p.assign(**{c: np.where(p[c].notna() & ~drawable(p[c]), np.inf, p[c]) for c, _ in COLUMNS})
     p = p.assign(_ok=(p["status"] == "ok").astype(int), _failed=p["status"].isin(FAILED_STATUSES).astype(int))
     agg = p.groupby(["T", "mu"], sort=True).agg(
         **{c: (c, "max") for c, _ in COLUMNS}, n_ok=("_ok", "sum"), n_failed=("_failed", "sum"),
@@ -56,19 +68,25 @@ def plot_convergence(tables: ScanTables, models: list[tuple[str, str]]) -> Conve
     axes = np.atleast_2d(fig.subplots(n, 2, squeeze=False))
     out = ConvergenceFigure(fig)
     pts = tables.points
-    vals = pd.concat([pts[c] for c, _ in COLUMNS]) if len(pts) else pd.Series(dtype=float)
-    vmax = max(float(np.nanmax(vals.to_numpy(float))) if vals.notna().any() else FLOOR * 10, FLOOR * 10)
-    accept = pts["accept_error"].dropna().unique() if "accept_error" in pts else []
-    vmax = max(vmax, *[float(a) for a in accept], FLOOR * 10)
+    vals = np.concatenate([pts[c].to_numpy(float) for c, _ in COLUMNS if c in pts]) if len(pts) else np.array([])
+    shown = vals[drawable(vals, log=True)]
+    vmax = max(float(shown.max()) if len(shown) else FLOOR * 10, FLOOR * 10)
+    accept = pts["accept_error"].to_numpy(float) if "accept_error" in pts else np.array([])
+    accept = np.unique(accept[drawable(accept, log=True)])
+    vmax = min(max(vmax, *[float(a) for a in accept], FLOOR * 10), DRAW_MAX)
     norm = LogNorm(vmin=FLOOR, vmax=vmax * 1.5)
+    out.norm = norm
     title(fig, f"scan '{tables.scan}': convergence of every grid point (worst branch at each point)\n"
                  "left: error_estimate (relative change at 100x tighter tolerances); "
-                 "right: P_mismatch = |P - P_check|/|P|\n"
-                 f"tables from code {tables.code_hash}, holoscan {tables.package_version}")
+                 "right: P_mismatch = |P - P_check|/|P|")
+    notes = list(tables.notes)
+    hidden = int(np.sum(~np.isnan(vals) & ~drawable(vals)))
+    if hidden:
+        notes.append(f"{count_text(hidden, 'value')} infinite or beyond {DRAW_MAX:g} not drawn (blank cells)")
     mesh = None
     for r, (mid, kind) in enumerate(models):
         info = model_info(tables, mid, kind)
-        pp = per_point(pts, mid) if len(pts) else per_point(pd.DataFrame(columns=["model_id"]), mid)
+        pp = per_point(pts, mid)
         for c, (col, text) in enumerate(COLUMNS):
             ax = axes[r, c]
             out.panels[(mid, col)] = (ax, pp)
@@ -83,7 +101,8 @@ def plot_convergence(tables: ScanTables, models: list[tuple[str, str]]) -> Conve
                 ax.set_yscale("log")
                 plain_log_ticks(ax.yaxis, float(pp["T"].min()), float(pp["T"].max()))
             mu_e, T_e, idx = nearest_raster(pp["mu"].to_numpy(float), pp["T"].to_numpy(float), log_T, n=160)
-            v = np.clip(pp[col].to_numpy(float), FLOOR, None)
+            v = pp[col].to_numpy(float)
+            v = np.where(np.isfinite(v) & (v <= DRAW_MAX), np.clip(v, FLOOR, None), np.nan)
             img = np.where(idx >= 0, v[np.clip(idx, 0, None)], np.nan)
             mesh = ax.pcolormesh(mu_e, T_e, np.ma.masked_invalid(img), norm=norm, cmap="cividis",
                                  rasterized=True, shading="flat")
@@ -113,4 +132,7 @@ def plot_convergence(tables: ScanTables, models: list[tuple[str, str]]) -> Conve
                       color=e, label=f"grid point {t} ({counts[k]} in this scan)")
                for k, (m, f, e, t) in BAD_MARKERS.items()]
     fig.legend(handles=handles, loc="lower center", ncols=2, frameon=False)
+    out.caption = "; ".join([f"Convergence map of scan '{tables.scan}': per model and grid point the worst "
+                             "branch's error_estimate and P_mismatch on one logarithmic colour scale, "
+                             f"values <= {FLOOR:g} drawn at {FLOOR:g}", provenance_text(tables), *notes]) + "."
     return out

@@ -7,8 +7,22 @@ and the speed of sound squared ``cs2``, with their conformal values drawn (trace
 A model with a scale (sourced ``emd``) is drawn against ``T`` at several fixed ``mu``; a conformal
 model's reduced quantities depend on ``mu/T`` only, so it is drawn against ``mu/T`` (all grid points
 collapse onto one curve), with the ``mu/T`` of its located lines marked. Only rows that are the
-dominant branch and ``ok`` are used; curves are broken where a located transition lies between
-two grid points (first-order ``T*`` at fixed ``mu``; the ``mu/T`` of a conformal model's lines).
+dominant branch and ``ok`` are used, and only drawable values (:func:`.data.drawable`); the others
+are counted in the caption.
+
+Located transitions between two grid points:
+
+- a first-order line (``T*`` at fixed ``mu``), and the ``mu/T`` of a conformal model's other lines:
+  the curve is broken there (the dominant branch jumps or kinks);
+- a conformal model's second-order line at ``x_c = mu/T``: the curves are drawn up to the line.
+  At a second-order transition ``P`` and its first derivatives are continuous and the second
+  derivatives jump (Ehrenfest's classification; common practice, no source). So ``s/T^(d-1)``,
+  ``P/T^d`` and the trace anomaly run through the line at the value of the branch that continues
+  through it (the branch found at both neighbouring grid points, linearly interpolated to ``x_c``;
+  linear interpolation of the two dominant neighbours if no branch continues); ``chi2/T^(d-2)`` and
+  ``cs2`` end at the line on each side: the continuing branch at its interpolated value, the other
+  branch at its linear extrapolation from its two grid points nearest the line (with only one
+  point on that side, that side stops at its point).
 """
 from __future__ import annotations
 
@@ -17,10 +31,14 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from .data import ScanTables, grid_text, model_info
+from .data import ScanTables, count_text, drawable, grid_text, model_info, provenance_text
 from .style import LINE_STYLES, OKABE_ITO, SERIES, new_figure, no_data, title
 
 QUANTITIES = ("s_hat", "P_hat", "trace_anomaly", "chi2_hat", "cs2")
+#: continuous at a second-order transition (P and its first derivatives); the others jump there
+CONTINUOUS = ("s_hat", "P_hat", "trace_anomaly")
+#: digits to which two mu/T values are the same abscissa
+X_DIGITS = 9
 
 
 def _pow(n: int) -> str:
@@ -39,17 +57,22 @@ def _labels(d: int) -> dict:
 
 @dataclass
 class EOSFigure:
-    """The figure, its panels by quantity and the plotted curves: ``curves[label] = (x, {q: y})``."""
+    """The figure, its panels by quantity, the grid data ``curves[label] = (x, {q: y})``, the drawn
+    line of each quantity ``drawn[q] = (x, y)`` (conformal models; NaN where the line is broken)
+    and the caption."""
 
     fig: object
     axes: dict = field(default_factory=dict)
     curves: dict = field(default_factory=dict)
+    drawn: dict = field(default_factory=dict)
     x_name: str = ""
+    caption: str = ""
 
 
 def pick_mu(values, k: int = 6) -> list[float]:
     """Up to ``k`` grid values of mu spread evenly over the non-negative ones (all if none is)."""
     u = np.unique(np.asarray(values, float))
+    u = u[np.isfinite(u)]
     if (u >= 0).any():
         u = u[u >= 0]
     if len(u) <= k:
@@ -59,11 +82,10 @@ def pick_mu(values, k: int = 6) -> list[float]:
 
 def first_order_T(tables: ScanTables, model_id: str, mu: float) -> list[float]:
     """Temperatures T* of the model's located first-order points at this mu."""
-    tr = tables.transitions
-    if not len(tr):
+    tr = tables.rows("transitions", model_id)
+    if not len(tr) or not {"type", "status", "mu", "T"} <= set(tr.columns):
         return []
-    sel = tr[(tr["model_id"] == model_id) & (tr["type"] == "first-order") & (tr["status"] == "ok")
-             & np.isclose(tr["mu"], mu, rtol=0, atol=1e-12)]
+    sel = tr[(tr["type"] == "first-order") & (tr["status"] == "ok") & np.isclose(tr["mu"], mu, rtol=0, atol=1e-12)]
     return sorted(sel["T"].astype(float))
 
 
@@ -88,10 +110,94 @@ def _min_span(ax, centre: float, half: float) -> None:
 
 
 def dominant_ok(tables: ScanTables, model_id: str) -> pd.DataFrame:
-    p = tables.points
-    if not len(p):
-        return p
-    return p[(p["model_id"] == model_id) & p["dominant"].fillna(False).astype(bool) & (p["status"] == "ok")]
+    p = tables.rows("points", model_id)
+    if not len(p) or not {"dominant", "status"} <= set(p.columns):
+        return p.iloc[0:0]
+    return p[p["dominant"].fillna(False).astype(bool) & (p["status"] == "ok")]
+
+
+def _interp(x0, y0, x1, y1, x):
+    """The straight line through (x0, y0) and (x1, y1) at x (inter- or extrapolation)."""
+    return y0 + (y1 - y0) * (x - x0) / (x1 - x0)
+
+
+class _Branches:
+    """The ok rows of every branch of a conformal model, by (rounded) mu/T and phase label."""
+
+    def __init__(self, rows: pd.DataFrame):
+        if not {"status", "T", "mu"} <= set(rows.columns):
+            rows = rows.iloc[0:0]
+        rows = rows[(rows["status"] == "ok") & drawable(rows["T"]) & (rows["T"] > 0)] if len(rows) else rows
+        self.rows = rows.assign(_x=np.round((rows["mu"] / rows["T"]).to_numpy(float), X_DIGITS)) if len(rows) else rows
+
+    def value(self, x: float, phase: str, q: str) -> float | None:
+        if not len(self.rows) or "phase" not in self.rows:
+            return None
+        sel = self.rows[(self.rows["_x"] == round(x, X_DIGITS)) & (self.rows["phase"] == phase)]
+        v = sel[q].to_numpy(float) if q in sel else np.array([])
+        v = v[drawable(v)]
+        return float(v[0]) if len(v) else None
+
+
+def _to_line(xs, ys, phases, xc, q, branches: _Branches):
+    """Values at the second-order line ``xc`` lying between xs[i] and xs[i+1] for quantity q:
+    ``(left end, right end)`` (equal for a continuous quantity; None where a side cannot reach it)."""
+    i = int(np.searchsorted(xs, xc)) - 1
+    L, R = phases[i], phases[i + 1]
+    cont = None
+    for label in (L, R):
+        a, b = branches.value(xs[i], label, q), branches.value(xs[i + 1], label, q)
+        if a is not None and b is not None:
+            cont = (label, _interp(xs[i], a, xs[i + 1], b, xc))
+            break
+    y = ys[q]
+    if q in CONTINUOUS:
+        if cont is not None:
+            return cont[1], cont[1]
+        if np.isfinite(y[i]) and np.isfinite(y[i + 1]):
+            v = _interp(xs[i], y[i], xs[i + 1], y[i + 1], xc)
+            return v, v
+        return None, None
+
+    def side(j, k):  # j: nearest point on that side, k: the next one further out
+        if cont is not None and phases[j] == cont[0]:
+            return cont[1]
+        if 0 <= k < len(xs) and phases[k] == phases[j] and np.isfinite(y[j]) and np.isfinite(y[k]):
+            return _interp(xs[k], y[k], xs[j], y[j], xc)
+        return None
+
+    return side(i, i - 1), side(i + 1, i + 2)
+
+
+def _drawn_line(xs, ys, phases, q, second, other, branches):
+    """(x, y) of the line of quantity q: the grid values, broken at ``other`` line positions and
+    carried to each second-order line position (module docstring)."""
+    x_out, y_out = [], []
+    y = ys[q]
+    for i in range(len(xs)):
+        x_out.append(xs[i])
+        y_out.append(y[i])
+        if i == len(xs) - 1:
+            break
+        inner = [xc for xc in second if xs[i] < xc < xs[i + 1]]
+        if inner:
+            left, right = _to_line(xs, ys, phases, inner[0], q, branches)
+            if q in CONTINUOUS and left is not None:
+                x_out.append(inner[0])
+                y_out.append(left)
+            else:
+                if left is not None:
+                    x_out.append(inner[0])
+                    y_out.append(left)
+                x_out.append(np.nan)
+                y_out.append(np.nan)
+                if right is not None:
+                    x_out.append(inner[0])
+                    y_out.append(right)
+        elif any(xs[i] < xl < xs[i + 1] for xl in other):
+            x_out.append(np.nan)
+            y_out.append(np.nan)
+    return np.asarray(x_out, float), np.asarray(y_out, float)
 
 
 def plot_eos(tables: ScanTables, model_id: str, kind: str) -> EOSFigure:
@@ -104,40 +210,71 @@ def plot_eos(tables: ScanTables, model_id: str, kind: str) -> EOSFigure:
     out = EOSFigure(fig, panels)
     legend_ax = grid.ravel()[5]
     legend_ax.axis("off")
-    pts = tables.points[tables.points["model_id"] == model_id] if len(tables.points) else tables.points
+    pts = tables.rows("points", model_id)
     how = "against $\\mu/T$ (conformal: depends on $\\mu/T$ only)" if info.conformal else "against T at fixed $\\mu$"
-    title(fig, f"{info.title}: equation of state of the dominant branch, {how}\n{grid_text(pts)}; {info.unit_note}")
+    title(fig, f"{info.title}: equation of state of the dominant branch, {how}\n{info.unit_note}")
+    caption = [f"Equation of state of model {info.model_id} ({info.kind}, d = {d}) along its dominant ok branch, "
+               + ("against mu/T" if info.conformal else "against T at fixed mu"), grid_text(pts), info.unit_plain,
+               provenance_text(tables)]
+    notes = list(tables.notes)
     rows = dominant_ok(tables, model_id)
     labels = _labels(d)
     for q, ax in panels.items():
         ax.set_ylabel(labels[q])
         ax.set_xlabel(r"$\mu/T$" if info.conformal else f"temperature T [{info.unit}]")
+    if len(rows):
+        placed = drawable(rows["T"]) & (rows["T"] > 0) & drawable(rows["mu"])
+        if (~placed).any():
+            notes.append(f"{count_text(int((~placed).sum()), 'row')} with T or mu not drawable left out")
+        rows = rows[placed]
+        missing = [q for q in QUANTITIES if q not in rows.columns]
+        if missing:
+            notes.append("columns missing from the points table: " + ", ".join(missing))
+            rows = rows.assign(**{q: np.nan for q in missing})
+        bad = {q: int((~drawable(rows[q])).sum()) for q in QUANTITIES}
+        if any(bad.values()):
+            notes.append("values not drawable (NaN, infinite or beyond 1e250) left out: "
+                         + ", ".join(f"{q} {n}" for q, n in bad.items() if n))
+        rows = rows.assign(**{q: np.where(drawable(rows[q]), rows[q].to_numpy(float), np.nan) for q in QUANTITIES})
     if not len(rows):
         for ax in panels.values():
             no_data(ax, "no ok dominant rows")
+        out.caption = "; ".join(caption + ["no ok dominant rows: nothing drawn"] + notes) + "."
         return out
 
     if info.conformal:
         x = (rows["mu"] / rows["T"]).to_numpy(float)
         order = np.argsort(x, kind="stable")
         xs = x[order]
-        keep = np.concatenate([[True], np.diff(np.round(xs, 9)) != 0])
+        keep = np.concatenate([[True], np.diff(np.round(xs, X_DIGITS)) != 0])
         xs = xs[keep]
         ys = {q: rows[q].to_numpy(float)[order][keep] for q in QUANTITIES}
+        phases = (rows["phase"].astype(str).to_numpy()[order][keep] if "phase" in rows
+                  else np.array([""] * len(xs)))
         out.curves["all grid points"] = (xs, ys)
         out.x_name = "mu/T"
-        tr = tables.transitions
-        tr = tr[(tr["model_id"] == model_id) & (tr["status"] == "ok")] if len(tr) else tr
-        x_lines = sorted(set(np.round(tr["mu_over_T"].dropna().astype(float), 9))) if len(tr) else []
-        xb, yb = _break_at(xs, ys, [x for x in x_lines if x not in set(np.round(xs, 9))])
+        tr = tables.rows("transitions", model_id)
+        need = {"type", "status", "mu_over_T"}
+        tr = tr[(tr["status"] == "ok") & drawable(tr["mu_over_T"])] if len(tr) and need <= set(tr.columns) else tr.iloc[0:0]
+        on_grid = set(np.round(xs, X_DIGITS))
+        x_of = {typ: sorted(set(np.round(tr.loc[tr["type"] == typ, "mu_over_T"].astype(float), X_DIGITS)))
+                for typ in LINE_STYLES} if len(tr) else {typ: [] for typ in LINE_STYLES}
+        second = [xv for xv in x_of["second-order"] if xv not in on_grid]
+        other = [xv for typ, xl in x_of.items() if typ != "second-order" for xv in xl if xv not in on_grid]
+        branches = _Branches(tables.rows("points", model_id))
         x_all = (rows["mu"] / rows["T"]).to_numpy(float)
         for q, ax in panels.items():
-            ax.plot(xb, yb[q], "-", color=SERIES[0], lw=1.4, label=f"dominant branch ({len(rows)} grid points)")
+            xq, yq = _drawn_line(xs, ys, phases, q, second, other, branches)
+            out.drawn[q] = (xq, yq)
+            ax.plot(xq, yq, "-", color=SERIES[0], lw=1.4, label=f"dominant branch ({len(rows)} grid points)")
             if len(rows) <= 600:  # every grid point, so a spread at equal mu/T would show
                 ax.plot(x_all, rows[q].to_numpy(float), "o", color=SERIES[0], ms=3, mfc="none", mew=0.8)
+        if second:
+            caption.append("at a second-order line s/T^(d-1), P/T^d and the trace anomaly run through the value of "
+                           "the branch continuing through it (interpolated), chi2/T^(d-2) and cs2 end at the line "
+                           "on each side (the other branch extrapolated linearly from its two nearest grid points)")
         for typ, (colour, ls, lw, text) in LINE_STYLES.items():
-            sel = tr[tr["type"] == typ]["mu_over_T"].dropna() if len(tr) else []
-            for i, xv in enumerate(np.unique(np.round(np.asarray(sel, float), 9))):
+            for i, xv in enumerate(x_of[typ]):
                 if xs.min() <= xv <= xs.max():
                     for ax in panels.values():
                         ax.axvline(xv, color=colour, ls=ls, lw=1.0,
@@ -155,12 +292,11 @@ def plot_eos(tables: ScanTables, model_id: str, kind: str) -> EOSFigure:
                 ax.plot(Tb, yb[q], "-o", color=SERIES[i % len(SERIES)], ms=3.5, lw=1.3, label=lab)
     for q, centre in (("cs2", 1.0 / (d - 1)), ("trace_anomaly", 0.0)):
         _min_span(panels[q], centre, 0.05)
-    if info.conformal:
-        for q in ("s_hat", "P_hat", "chi2_hat"):
-            y = out.curves["all grid points"][1][q]
-            y = y[np.isfinite(y)]
-            if len(y) and y.min() > 0 and y.max() / y.min() > 100:
-                panels[q].set_yscale("log")
+    for q in ("s_hat", "P_hat", "chi2_hat"):
+        y = np.concatenate([c[1][q] for c in out.curves.values()]) if out.curves else np.array([])
+        y = y[np.isfinite(y)]
+        if info.conformal and len(y) and y.min() > 0 and y.max() / y.min() > 100:
+            panels[q].set_yscale("log")
     panels["cs2"].axhline(1.0 / (d - 1), color=OKABE_ITO["black"], ls="--", lw=1.0,
                           label=f"conformal limits: $c_s^2$ = 1/{d - 1}, trace anomaly 0")
     panels["trace_anomaly"].axhline(0.0, color=OKABE_ITO["black"], ls="--", lw=1.0)
@@ -168,4 +304,5 @@ def plot_eos(tables: ScanTables, model_id: str, kind: str) -> EOSFigure:
     seen = dict(zip(labs, handles))
     legend_title = None if info.conformal else f"$\\mu$ [{info.unit}]; lines broken at located\nfirst-order transitions"
     legend_ax.legend(seen.values(), seen.keys(), loc="center", frameon=False, title=legend_title)
+    out.caption = "; ".join(caption + notes) + "."
     return out

@@ -48,10 +48,10 @@ LINE_STYLES = {
 
 #: markers of grid points whose solve is not clean: status -> (marker, face, edge, legend text)
 BAD_MARKERS = {
-    "failed": ("X", OKABE_ITO["black"], OKABE_ITO["black"], "failed / no solution"),
+    "failed": ("X", OKABE_ITO["black"], OKABE_ITO["black"], "failed / no solution / out of range"),
     "unconverged": ("D", "none", OKABE_ITO["vermillion"], "not converged (some branch)"),
 }
-FAILED_STATUSES = ("failed", "no solution")
+FAILED_STATUSES = ("failed", "no solution", "out of range")
 UNCONVERGED_STATUSES = ("not converged", "incomplete")
 
 RC = {
@@ -93,17 +93,39 @@ def title(fig, text: str) -> None:
 
 
 def save(fig, stem: Path) -> list[Path]:
-    """Write ``stem.png`` and ``stem.pdf`` (reproducible metadata) and close the figure."""
+    """Write ``stem.png`` and ``stem.pdf`` (reproducible metadata) and close the figure. A failure
+    leaves no temporary file behind (the figure is closed and the error raised)."""
     stem.parent.mkdir(parents=True, exist_ok=True)
     out = []
-    for ext, meta in (("png", PNG_METADATA), ("pdf", PDF_METADATA)):
-        path = stem.with_name(stem.name + f".{ext}")
-        tmp = path.with_name(path.name + ".tmp")
-        fig.savefig(tmp, format=ext, metadata=meta)
-        tmp.replace(path)
-        out.append(path)
-    plt.close(fig)
+    try:
+        for ext, meta in (("png", PNG_METADATA), ("pdf", PDF_METADATA)):
+            path = stem.with_name(stem.name + f".{ext}")
+            tmp = path.with_name(path.name + ".tmp")
+            fig.savefig(tmp, format=ext, metadata=meta)
+            tmp.replace(path)
+            out.append(path)
+    except BaseException:
+        for ext in ("png", "pdf"):
+            stem.with_name(stem.name + f".{ext}.tmp").unlink(missing_ok=True)
+        raise
+    finally:
+        plt.close(fig)
     return out
+
+
+def placeholder(heading: str, reason: str):
+    """A figure that says it stands in for ``heading``, which could not be drawn, and why."""
+    import textwrap
+
+    fig = new_figure((8.0, 4.5), left=0.2, right=0.2, bottom=0.2, top=0.2)
+    ax = fig.add_subplot()
+    ax.axis("off")
+    body = "\n".join(textwrap.wrap(reason, 90)[:12]) or "(no reason given)"
+    ax.text(0.5, 0.62, f"{heading}\ncould not be drawn from the tables", ha="center", va="center",
+            transform=ax.transAxes, fontsize=12, parse_math=False)
+    ax.text(0.5, 0.3, body, ha="center", va="center", transform=ax.transAxes, fontsize=8,
+            color=OKABE_ITO["vermillion"], family="monospace", parse_math=False)
+    return fig
 
 
 def no_data(ax, text: str) -> None:
