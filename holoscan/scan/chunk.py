@@ -91,7 +91,7 @@ def _solve_block(model, settings, mid, block, base, log) -> list[dict]:
             r.update(base, point_key=key, start_time=start, end_time=end, accept_error=settings.accept_error)
             rows.append(r)
         st = ", ".join(r["status"] for r in out)
-        log(f"{mid} T={T!r} mu={mu!r}: {st} ({per:.3f} s{' per point of a batch' if len(block) > 1 else ''})")
+        log(f"{mid} T={T!r} mu={mu!r} key={key}: {st} ({per:.3f} s{' per point of a batch' if len(block) > 1 else ''})")
     return rows
 
 

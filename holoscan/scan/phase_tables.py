@@ -13,6 +13,7 @@ import pyarrow.parquet as pq
 
 from .store import atomic_write_table
 from .tables import F64, I64, STR, file_metadata, table_from_rows
+from .uncertainty import with_uncertainty
 
 LSTR, LF64 = pa.list_(STR), pa.list_(F64)
 
@@ -157,8 +158,9 @@ def phase_summary_text(summary: dict) -> str:
         if s["line_points"]:
             lines.append("    line points: " + ", ".join(f"{k} {v}" for k, v in sorted(s["line_points"].items())))
         for c in s["critical_points"]:
-            if c["status"] == "ok":
-                lines.append(f"    critical point: T = {c['T']:.8g} +- {c['T_err']:.1g}, mu = {c['mu']:.8g} +- {c['mu_err']:.1g}")
+            if c["status"] == "ok":  # digits as the uncertainty supports (scan/uncertainty.py)
+                (T, dT), (mu, dmu) = with_uncertainty(c["T"], c["T_err"]), with_uncertainty(c["mu"], c["mu_err"])
+                lines.append(f"    critical point: T = {T} +- {dT}, mu = {mu} +- {dmu}")
             else:
                 lines.append(f"    critical point: {c['status']}")
     return "\n".join(lines) + "\n"
