@@ -33,14 +33,14 @@ from .. import validate as v
 from ..bulk.charged_brane import ChargedBrane
 from ..bulk.scalar_brane import ScalarBrane
 from ..conformal import solve_unsourced
-from ..emd_batch import batch_solver
+from ..emd_batch import DERIV_ROUNDOFF, batch_solver
 from ..emd_pressure import ZeroDensityPressure, lobatto, path_integral
 from ..emd_solver import Counters, EMDShooter, find_branches
 from ..errors import InputError
 from ..expr import ParsedCoupling
 from ..result import PointResult, Status
 from ..settings import SolverSettings
-from ..thermo import RHO_FLOOR, cs2_from_hessian, hessian_from_jacobians, local_stability
+from ..thermo import CS2_FLOOR, RHO_FLOOR, cs2_from_hessian, hessian_from_jacobians, local_stability
 
 D_BOUNDARY = 4
 #: horizon-scalar range and nodes of an unsourced family's coarse scan (and atlas)
@@ -191,13 +191,36 @@ def _gradients(sh: EMDShooter, q, steps, ss, cnt, transform=None):
 
 def _family_derivatives(sh: EMDShooter, q, step: float, ss, cnt):
     """d/dtau of (x, j, s_hat, rho_hat) along the j = 0 family at q (tangent (dj/du, -dj/dphi0)),
-    exact given the gradients, and a relative error estimate."""
+    exact given the gradients, with the absolute error estimate of each component."""
     G, E = _gradients(sh, q, (step * max(1.0, abs(q[0])), step), ss, cnt)
     t = np.array([G[1, 1], -G[1, 0]])
     t /= np.linalg.norm(t)
-    d = G @ t
-    err = (E @ np.abs(t)) / np.maximum(np.abs(d), 1e-300)
-    return d, float(np.max(err[[0, 2, 3]]))
+    return G @ t, E @ np.abs(t)
+
+
+def _family_hessian(deriv, xs: float, sh_: float, rh: float, T: float, d: int):
+    """(P_TT, P_Tmu, P_mumu, Maxwell mismatch) at T from the family tangent ``deriv`` and the
+    reduced values (mu/T, s/T^(d-1), rho/T^(d-1)); Jacobian columns (family tangent, scaling)."""
+    Jt = np.array([[0.0, 1.0], [deriv[0], xs]])
+    Jd = np.array([[deriv[2], (d - 1) * sh_], [deriv[3], (d - 1) * rh]])
+    P_TT, P_Tmu, P_mumu, maxwell = hessian_from_jacobians(Jt, Jd)
+    f2 = T ** (d - 2)
+    return P_TT * f2, P_Tmu * f2, P_mumu * f2, maxwell
+
+
+def _propagated(fn, deriv, abs_err) -> np.ndarray:
+    """Linear bound on the change of ``fn(deriv)`` (an array) when each used component of
+    ``deriv`` moves by its error: the sum over components of the larger change of the two signs."""
+    base = np.asarray(fn(deriv), dtype=float)
+    total = np.zeros_like(base)
+    for k in (0, 2, 3):
+        worst = np.zeros_like(base)
+        for sgn in (1.0, -1.0):
+            dd = np.array(deriv, dtype=float)
+            dd[k] += sgn * abs_err[k]
+            worst = np.maximum(worst, np.abs(np.asarray(fn(dd), dtype=float) - base))
+        total += worst
+    return total
 
 
 def solve_family(model: EMDModel, sh: EMDShooter, T: float, mu: float, settings: SolverSettings):
@@ -220,7 +243,10 @@ def solve_family(model: EMDModel, sh: EMDShooter, T: float, mu: float, settings:
         try:
             if sh.observe(q, ss, cnt, record=True) is None:
                 raise ArithmeticError("the solution shot failed on repetition")
-            deriv, deriv_err = _family_derivatives(sh, q, settings.fd_step, ss.tighter(10), cnt)
+            deriv, deriv_abs_err = _family_derivatives(sh, q, settings.fd_step, ss.tighter(10), cnt)
+            # the same derivatives with every choice changed (twice the step, ten times tighter
+            # shots): their difference covers the shots' noise, which Richardson does not see
+            deriv_b, _ = _family_derivatives(sh, q, 2.0 * settings.fd_step, ss.tighter(100), cnt)
         except ArithmeticError as exc:
             out.append(PointResult(**common, branch=b, status=Status.FAILED, message=str(exc)))
             continue
@@ -228,17 +254,32 @@ def solve_family(model: EMDModel, sh: EMDShooter, T: float, mu: float, settings:
         xs, sh_, rh = o[0], o[2], o[3]
         s, rho = sh_ * T ** (d - 1), rh * T ** (d - 1)
         P = (T * s + x * T * rho) / d
-        # Jacobians in units T = 1: columns (family tangent, scaling)
-        Jt = np.array([[0.0, 1.0], [deriv[0], xs]])
-        Jd = np.array([[deriv[2], (d - 1) * sh_], [deriv[3], (d - 1) * rh]])
-        P_TT, P_Tmu, P_mumu, maxwell = hessian_from_jacobians(Jt, Jd)
-        f2 = T ** (d - 2)
-        P_TT, P_Tmu, P_mumu = P_TT * f2, P_Tmu * f2, P_mumu * f2
+
+        def thermo2(dv):
+            P_TT, P_Tmu, P_mumu, _ = _family_hessian(dv, xs, sh_, rh, T, d)
+            return [P_mumu, cs2_from_hessian(T, x * T, s, rho, P_TT, P_Tmu, P_mumu)]
+
+        P_TT, P_Tmu, P_mumu, maxwell = _family_hessian(deriv, xs, sh_, rh, T, d)
         cs2 = cs2_from_hessian(T, x * T, s, rho, P_TT, P_Tmu, P_mumu)
-        # floors: mu/T against max(|mu/T|, 1), rho_hat against max(|rho_hat|, RHO_FLOOR s_hat)
-        err = math.nan if ot is None else float(np.max(np.abs(ot[[0, 2, 3]] - o[[0, 2, 3]]) / np.maximum(
-            np.abs(o[[0, 2, 3]]), [1.0, o[2], RHO_FLOOR * o[2]])))
-        err = max(err, deriv_err) + 1e-13
+        d_chi2, d_cs2 = _propagated(thermo2, deriv, deriv_abs_err) + np.abs(
+            np.asarray(thermo2(deriv_b)) - np.asarray(thermo2(deriv)))
+        deriv_err = float(np.max(deriv_abs_err[[0, 2, 3]] / np.maximum(np.abs(deriv[[0, 2, 3]]), 1e-300)))
+        # values: the offset-varied shot; floors: mu/T against max(|mu/T|, 1), rho_hat against
+        # max(|rho_hat|, RHO_FLOOR s_hat)
+        if ot is None:
+            e_vals = math.nan
+            e_s = e_rho = math.nan
+        else:
+            rel = np.abs(ot[[0, 2, 3]] - o[[0, 2, 3]]) / np.maximum(np.abs(o[[0, 2, 3]]), [1.0, o[2], RHO_FLOOR * o[2]])
+            e_vals, e_s, e_rho = float(np.max(rel)), float(rel[1]), float(max(rel[0], rel[2]))
+        # P = (T s + mu rho)/d and epsilon = (d - 1) P: relative error at most that of s and rho
+        # (rho measured with its floor, so against s as well)
+        e_P = max(e_s, e_rho)
+        e_chi2 = float(d_chi2) / max(abs(P_mumu), 1e-300) + e_vals + DERIV_ROUNDOFF
+        e_cs2 = float(d_cs2) / max(abs(cs2), CS2_FLOOR) + e_vals + DERIV_ROUNDOFF
+        per = {"s": e_s, "rho": e_rho, "P": e_P, "epsilon": e_P, "chi2": e_chi2, "cs2": e_cs2}
+        per = {k: v + 1e-13 for k, v in per.items()}
+        err = max(per.values()) if all(np.isfinite(v) for v in per.values()) else math.nan
         problems = settings.problems(err, cnt.residual)
         out.append(PointResult(
             **common, s=s, rho=sign * rho, epsilon=(d - 1) * P, P=P, chi2=P_mumu, cs2=cs2, branch=b,
@@ -249,7 +290,8 @@ def solve_family(model: EMDModel, sh: EMDShooter, T: float, mu: float, settings:
             wall_time=time.perf_counter() - t0,
             extra={"horizon_phi0": float(q[0]),
                    "horizon_u": float(q[1]) * sign, "target_mismatch": fnorm, "deriv_error": deriv_err,
-                   "maxwell_mismatch": maxwell, "trace_anomaly": 0.0, "shots": cnt.shots},
+                   "maxwell_mismatch": maxwell, "trace_anomaly": 0.0, "shots": cnt.shots,
+                   "error_by_observable": per},
         ))
     return out
 
