@@ -29,8 +29,15 @@ def _json_ready(obj):
 def cmd_point(args) -> int:
     check_target(args.T, args.mu, key_T="--T", key_mu="--mu")
     doc = read_yaml(args.config)
-    models, settings = load_models(doc)
-    model = pick_model(models, args.model)
+    if "scan" in doc:  # a scan config: its model blocks with their own solver settings
+        from .scan.config import validate_scan_config
+
+        plans = {mp.model.id: mp for mp in validate_scan_config(doc).models}
+        mp = pick_model(plans, args.model)
+        model, settings = mp.model, mp.settings
+    else:
+        models, settings = load_models(doc)
+        model = pick_model(models, args.model)
     if args.method:
         settings = settings.with_method(args.method)
     results = solve_point(model, args.T, args.mu, settings)
@@ -45,6 +52,17 @@ def cmd_check(args) -> int:
 
     cfg = read_scan_config(args.config)
     print(f"config ok: scan '{cfg.scan}', {len(cfg.models)} model(s), {cfg.n_points} grid point(s)")
+    return 0
+
+
+def cmd_write_manifest(args) -> int:
+    from .scan.plan import write_manifest_from_table
+
+    try:
+        write_manifest_from_table(args.table, args.out)
+    except (OSError, ValueError, KeyError, StopIteration) as exc:
+        print(f"holoscan: error: {exc}", file=sys.stderr)
+        return 3
     return 0
 
 
@@ -88,21 +106,27 @@ def cmd_solve_lines(args) -> int:
 def cmd_phase_tables(args) -> int:
     from pathlib import Path
 
+    from .scan.assemble import plan_hash_of
     from .scan.phase_tables import build_phase_tables, dump_json, phase_summary_text
+    from .scan.seals import write_seal
     from .scan.store import atomic_write_text
 
-    doc = json.loads(Path(args.plan).read_text())
+    text = Path(args.plan).read_text()
+    doc = json.loads(text)
     root = Path(args.plan).parent.parent
     keys = [k for _, k in doc.get("lines", [])]
     summary = build_phase_tables(args.points, [root / "lines" / f"{k}.parquet" for k in keys],
                                  [root / "lines" / f"{k}-critical.parquet" for k in keys],
                                  args.out_phases, args.out_transitions, args.out_critical)
-    text = phase_summary_text(summary)
+    summary_text_ = phase_summary_text(summary)
     if args.summary_text:
-        atomic_write_text(Path(args.summary_text), text)
+        atomic_write_text(Path(args.summary_text), summary_text_)
     if args.summary:
         atomic_write_text(Path(args.summary), dump_json(summary))
-    print(text, end="")
+    for path in (args.out_phases, args.out_transitions, args.out_critical, args.summary, args.summary_text):
+        if path:
+            write_seal(path, plan_hash_of(text))
+    print(summary_text_, end="")
     return 0
 
 
@@ -191,6 +215,11 @@ def build_parser() -> argparse.ArgumentParser:
     ck = sub.add_parser("check", help="validate a scan config and count its points")
     ck.add_argument("--config", required=True)
     ck.set_defaults(func=cmd_check)
+
+    wm = sub.add_parser("write-manifest", help="(workflow) write a chunk or lines manifest from the plan's table file")
+    wm.add_argument("table")
+    wm.add_argument("out")
+    wm.set_defaults(func=cmd_write_manifest)
 
     sc = sub.add_parser("solve-chunk", help="(workflow) solve one chunk manifest into a sealed segment")
     sc.add_argument("manifest")

@@ -10,6 +10,10 @@ from .engine import ShootSettings
 METHODS = ("auto", "closed-form", "shooting")
 
 
+#: largest accepted value of each tolerance-like setting (the scan schema states the same maxima)
+UPPER_LIMITS = {"rtol": 1e-2, "horizon_offset": 1e-2, "accept_error": 0.1, "fd_step": 0.1}
+
+
 @dataclass(frozen=True)
 class SolverSettings:
     """How a point is solved.
@@ -37,6 +41,8 @@ class SolverSettings:
 
     @classmethod
     def from_block(cls, block, key: str = "solver") -> "SolverSettings":
+        """Settings from a ``solver:`` block; the same limits (UPPER_LIMITS, rtol >= 1e-13) hold for
+        ``holoscan point`` and for scans (the scan schema states the same maxima)."""
         if block is None:
             return cls()
         v.mapping(block, key)
@@ -46,11 +52,11 @@ class SolverSettings:
             raise InputError(f"{key}.method", method, f"unknown method; known: {', '.join(METHODS)}")
         out = cls(method=method)
         vals = {}
-        for name in ("rtol", "horizon_offset", "accept_error", "fd_step"):
+        for name, cap in UPPER_LIMITS.items():
             if name in block:
                 x = v.number(block[name], f"{key}.{name}", positive=True)
-                if x >= 1.0:
-                    raise InputError(f"{key}.{name}", block[name], "must be < 1")
+                if x > cap:
+                    raise InputError(f"{key}.{name}", block[name], f"must be <= {cap:g}")
                 vals[name] = x
         if "rtol" in vals and vals["rtol"] < 1e-13:
             raise InputError(f"{key}.rtol", block["rtol"], "must be >= 1e-13 (double precision limit)")

@@ -61,8 +61,7 @@ def _schema_error(err: jsonschema.ValidationError) -> InputError:
             return InputError(key, err.instance, "give exactly one of 'mu' and 'mu_over_T'")
         return InputError(key, err.instance, _HINTS["axis"])
     if err.validator == "type" and isinstance(err.instance, str) and _looks_numeric(err.instance):
-        return InputError(key, err.instance, f"is text, not a number: YAML reads an exponent without a decimal "
-                          f"point as text; write it like {_as_yaml_float(err.instance)}")
+        return InputError(key, err.instance, "is text, not a number: write it without quotes")
     msg = err.message
     if len(msg) > 200:
         msg = msg[:200] + "..."
@@ -77,9 +76,30 @@ def _looks_numeric(text: str) -> bool:
         return False
 
 
-def _as_yaml_float(text: str) -> str:
-    mant, _, exp = text.lower().partition("e")
-    return f"{mant if '.' in mant else mant + '.0'}e{exp}" if exp else text
+#: default cap on the grid points of one scan (all models); a config raises it with ``max_points``
+DEFAULT_MAX_POINTS = 1_000_000
+
+
+def _axis_length(spec) -> int:
+    return len(spec) if isinstance(spec, list) else int(spec["num"])
+
+
+def _check_size(doc: dict) -> None:
+    """Refuse a scan with more than ``max_points`` grid points, counted from the axis lengths
+    before any point is made (a product of two 10^5 axes would not fit in memory)."""
+    cap = int(doc.get("max_points", DEFAULT_MAX_POINTS))
+    total = 0
+    for i, block in enumerate(doc["models"]):
+        grid, key = (block["grid"], f"models[{i}].grid") if "grid" in block else (doc.get("grid"), "grid")
+        if grid is None:
+            continue
+        other = grid["mu"] if "mu" in grid else grid["mu_over_T"]
+        n = _axis_length(grid["T"]) * _axis_length(other)
+        total += n
+        if total > cap:
+            raise InputError(key, f"{_axis_length(grid['T'])} x {_axis_length(other)} points",
+                             f"the scan would have more than max_points = {cap} grid points; "
+                             "raise max_points in the config to allow it")
 
 
 @dataclass(frozen=True)
@@ -119,6 +139,7 @@ def validate_scan_config(doc, schema: dict | None = None) -> ScanConfig:
     if err is not None:
         raise _schema_error(err)
     v.name(doc["scan"], "scan")
+    _check_size(doc)
     default_solver = SolverSettings.from_block(doc.get("solver"), "solver")
     plans, seen = [], set()
     for i, block in enumerate(doc["models"]):
