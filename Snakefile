@@ -1,6 +1,7 @@
 # holoscan workflow: (T, mu) scans of charged black branes into Parquet phase-diagram tables.
-# The rules live in workflow/rules/; this file only includes them.
-configfile: "config/config.yaml"
+# The rules live in workflow/rules/; this file only includes them. The scan config is the one
+# --configfile given, or config/config.yaml when none is (workflow/rules/common.smk reads it: a
+# given config is never merged with the default one).
 report: "workflow/report/workflow.rst"
 
 

@@ -83,6 +83,7 @@ import holoscan  # noqa: E402
 from holoscan.config import read_yaml  # noqa: E402
 from holoscan.scan.identity import code_hash  # noqa: E402
 from holoscan.scan.snakemake_glue import plan_scan  # noqa: E402
+from holoscan.scan.plan import write_plan_files  # noqa: E402
 from holoscan.scan.store import seal_segment  # noqa: E402
 from holoscan.scan.tables import COLUMNS, rows_to_table, schema  # noqa: E402
 
@@ -186,12 +187,13 @@ def measure_chunk(work: Path, model_id: str, n_points: int) -> dict:
     (folder / "config.json").write_text(json.dumps(doc, indent=1))  # JSON is YAML: a config file
     for attempt in (1, 2):
         _, plan = plan_scan(doc, SCHEMA, folder / "results")
+        write_plan_files(plan)
         if len(plan.chunk_ids) != 1 or plan.n_points != n_points:
             raise RuntimeError(f"expected one chunk of {n_points} points, got {len(plan.chunk_ids)} chunk(s) "
                                f"for {plan.n_points} points")
         cid = plan.chunk_ids[0]
         seg = plan.segment(cid)
-        m = measure(holoscan_cmd("solve-chunk", plan.manifest(cid), "--out", seg, "--log",
+        m = measure(holoscan_cmd("solve-chunk", plan.chunk_manifest(cid), "--out", seg, "--log",
                                  f"logs/solve_chunk/{plan.scan}/{cid}.log"), folder, f"solve-chunk-{attempt}")
         if m["rc"] != 3:  # 3: stale manifest (the physics code changed after planning): plan again once
             break
@@ -325,6 +327,7 @@ def measure_assembly(work: Path, n_rows: int, n_segments: int, seed: int) -> dic
     (folder / "config.json").write_text(json.dumps(doc, indent=1))
     t0 = time.perf_counter()
     _, plan = plan_scan(doc, SCHEMA, folder / "results")
+    write_plan_files(plan)
     t_plan = time.perf_counter() - t0
     if plan.n_points != n_rows:
         raise RuntimeError(f"planned {plan.n_points} points, wanted {n_rows}")
@@ -335,7 +338,7 @@ def measure_assembly(work: Path, n_rows: int, n_segments: int, seed: int) -> dic
     t0 = time.perf_counter()
     seg_bytes = 0
     for i, cid in enumerate(plan.chunk_ids):
-        manifest = json.loads(plan.manifest(cid).read_text())
+        manifest = json.loads(plan.chunk_manifest(cid).read_text())
         table = synthetic_segment(manifest, rng, host, t_base + timedelta(minutes=i))
         if not table.schema.equals(reference, check_metadata=True):
             raise RuntimeError("synthetic segment schema differs from holoscan.scan.tables.rows_to_table's")

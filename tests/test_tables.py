@@ -16,7 +16,7 @@ from holoscan.scan.assemble import assemble
 from holoscan.scan.chunk import run_chunk
 from holoscan.scan.config import validate_scan_config
 from holoscan.scan.identity import code_hash
-from holoscan.scan.plan import make_plan
+from holoscan.scan.plan import make_plan, write_plan_files
 from holoscan.scan.tables import COLUMNS, META_KEY, file_metadata
 
 CFG = {
@@ -35,10 +35,11 @@ CFG = {
 
 def build(tmp_path, cfg=CFG):
     plan = make_plan(validate_scan_config(cfg), tmp_path / "results")
+    write_plan_files(plan)
     for c in plan.chunk_ids:
         log = tmp_path / f"{c}.log"
         with open(log, "w") as fh:  # the workflow sends a job's stdout to its log file in the same way
-            run_chunk(plan.manifest(c), plan.segment(c), log_file=str(log), log=lambda m: print(m, file=fh))
+            run_chunk(plan.chunk_manifest(c), plan.segment(c), log_file=str(log), log=lambda m: print(m, file=fh))
     out = tmp_path / "points.parquet"
     summary = assemble(plan.table_file, out, tmp_path / "summary.json", tmp_path / "summary.txt")
     return plan, out, summary

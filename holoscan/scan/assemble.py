@@ -1,6 +1,7 @@
 """Assemble the phase-diagram table of the current plan from sealed segments."""
 from __future__ import annotations
 
+import hashlib
 import json
 import socket
 from collections import Counter
@@ -13,6 +14,7 @@ import pyarrow.parquet as pq
 
 from .. import __version__
 from ..result import Status
+from .seals import write_seal
 from .sizing import measured, read_costs, write_costs
 from .store import atomic_write_table, atomic_write_text, seal_path, sha256_file
 from .tables import SCHEMA_VERSION, schema
@@ -32,7 +34,9 @@ def _read_segment(path: Path, keys: set) -> pa.Table:
 
 def assemble(table_file, out_table, summary_json, summary_txt=None) -> dict:
     """Select one set of rows per current point key, write the table and the per-model summary."""
-    doc = json.loads(Path(table_file).read_text())
+    text = Path(table_file).read_text()
+    doc = json.loads(text)
+    plan_hash = plan_hash_of(text)
     root = Path(table_file).parent.parent
     by_chunk: dict[str, set] = {}
     for _, _, _, key, chunk in doc["rows"]:
@@ -54,7 +58,7 @@ def assemble(table_file, out_table, summary_json, summary_txt=None) -> dict:
         "schema_version": SCHEMA_VERSION, "package_version": __version__, "code_hash": doc["code_hash"],
         "config_hash": doc["config_hash"], "config": doc["config"], "scan": doc["scan"],
         "created": datetime.now(timezone.utc).isoformat(timespec="seconds"), "host": socket.gethostname(),
-        "plan": Path(table_file).name,
+        "plan": Path(table_file).name, "plan_hash": plan_hash,
     }
     table = table.cast(schema(meta))
     atomic_write_table(table, out_table)
@@ -67,7 +71,15 @@ def assemble(table_file, out_table, summary_json, summary_txt=None) -> dict:
     atomic_write_text(Path(summary_json), json.dumps(summary, indent=2))
     if summary_txt:
         atomic_write_text(Path(summary_txt), summary_text(summary, doc["scan"]))
+    for path in (out_table, summary_json, summary_txt):
+        if path:
+            write_seal(path, plan_hash)
     return summary
+
+
+def plan_hash_of(table_text: str) -> str:
+    """The plan hash: the first 16 hex digits of the sha256 of the plan's table file text."""
+    return hashlib.sha256(table_text.encode()).hexdigest()[:16]
 
 
 def summarize(table: pa.Table, model_order) -> dict:

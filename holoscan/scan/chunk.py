@@ -1,6 +1,7 @@
 """Solve one chunk manifest into a sealed segment. One bad point never stops the chunk."""
 from __future__ import annotations
 
+import hashlib
 import json
 import os
 import socket
@@ -27,6 +28,23 @@ class StaleManifest(RuntimeError):
 
 def utc_now() -> str:
     return datetime.now(timezone.utc).isoformat(timespec="microseconds")
+
+
+def read_manifest(path) -> dict:
+    """A manifest, checked: JSON text whose hash is the one its name carries
+    (``<id>.<text hash>[...].json``, see scan/plan.py). Raises StaleManifest otherwise."""
+    p = Path(path)
+    try:
+        text = p.read_text()
+        doc = json.loads(text)
+    except (OSError, ValueError, UnicodeDecodeError) as exc:
+        raise StaleManifest(f"{p}: unreadable manifest ({type(exc).__name__}); run the workflow again to re-plan") from None
+    parts = p.name.split(".")
+    if len(parts) >= 3 and hashlib.sha256(text.encode()).hexdigest()[:12] != parts[1]:
+        raise StaleManifest(f"{p}: damaged manifest (its text does not match its name); run the workflow again")
+    if not isinstance(doc, dict) or "code_hash" not in doc:
+        raise StaleManifest(f"{p}: not a holoscan manifest")
+    return doc
 
 
 def check_code(manifest: dict) -> None:
@@ -97,7 +115,7 @@ def _solve_block(model, settings, mid, block, base, log) -> list[dict]:
 
 def run_chunk(manifest_path, out_path, log_file: str = "", log=print) -> int:
     """Solve the manifest and write the sealed segment ``out_path``. Returns the number of rows."""
-    manifest = json.loads(Path(manifest_path).read_text())
+    manifest = read_manifest(manifest_path)
     rows = solve_manifest(manifest, log_file=log_file, log=log)
     out = Path(out_path)
     out.parent.mkdir(parents=True, exist_ok=True)

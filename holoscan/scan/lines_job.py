@@ -4,14 +4,14 @@ from __future__ import annotations
 import json
 import socket
 import traceback
-from pathlib import Path
 
 from .. import __version__
 from ..models import model_from_block
 from ..phases.lines import CriticalPoint, LinePoint, locate
 from ..settings import SolverSettings
-from .chunk import check_code, utc_now
+from .chunk import check_code, read_manifest, utc_now
 from .phase_tables import CRITICAL_COLUMNS, TRANSITION_COLUMNS
+from .seals import write_seal
 from .store import atomic_write_table
 from .tables import table_from_rows
 
@@ -19,7 +19,7 @@ from .tables import table_from_rows
 def run_lines(manifest_path, out_lines, out_critical, log_file: str = "", log=print) -> tuple[int, int]:
     """Locate the lines of the manifest's model; write both tables (temporary name, then rename).
     Returns (line rows, critical-point rows)."""
-    man = json.loads(Path(manifest_path).read_text())
+    man = read_manifest(manifest_path)
     check_code(man)
     model = model_from_block(man["spec"], f"manifest.{man['model_id']}")
     settings = SolverSettings(**man["solver"])
@@ -41,4 +41,6 @@ def run_lines(manifest_path, out_lines, out_critical, log_file: str = "", log=pr
         log(f"{r['model_id']} {r.get('type', 'critical point')}: T={r['T']!r} mu={r['mu']!r} {r['status']} {r['message']}")
     atomic_write_table(table_from_rows(out_r, TRANSITION_COLUMNS), out_lines)
     atomic_write_table(table_from_rows(out_c, CRITICAL_COLUMNS), out_critical)
+    for path in (out_lines, out_critical):  # sealed with the lines key they were made for
+        write_seal(path, man["key"])
     return len(out_r), len(out_c)

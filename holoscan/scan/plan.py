@@ -8,8 +8,11 @@ so that one plan never has more than ``max_jobs`` chunks.
 Each model with transition lines to locate (:func:`holoscan.phases.lines.has_lines`) gets one
 lines job, ``plan/lines-<key>.json``, keyed by the model context (spec, solver, code) and its grid.
 
-The plan also writes ``plan/table-<hash>.json``: every point of the current config with its key and
-the chunk that holds (or will hold) it. Assembly reads only that file and the segments it names.
+The plan also holds the text of ``plan/table-<hash>.json``: every point of the current config with
+its key and the chunk that holds (or will hold) it. Assembly reads only that file and the segments
+it names. Planning only reads: the manifests and the table file are written by workflow jobs of a
+run that holds the lock (so ``snakemake -n``, ``--unlock``, ``--lint`` or a run refused by the lock
+change nothing), and a file on disk that differs from the plan's text is written again.
 """
 from __future__ import annotations
 
@@ -23,7 +26,8 @@ from .. import __version__
 from ..phases.lines import has_lines
 from .config import ScanConfig
 from .identity import code_hash, config_hash, model_context, point_key
-from .sizing import cost_key, points_per_job, probe, read_costs, write_costs
+from .sizing import cost_key, points_per_job, read_costs
+from .seals import stale_files
 from .store import atomic_write_text, index_store
 
 
@@ -37,64 +41,153 @@ class Plan:
     segment_ids: tuple  # every segment the table needs (old and new)
     table_file: Path  # plan/table-<hash>.json
     plan_hash: str
-    quarantined: tuple
+    invalid: dict  # chunk id -> reason: damaged or incomplete segments, quarantined by a locked run
     chunk_size: int
     lines_ids: tuple = ()  # one lines job per model with lines to locate
     chunk_seconds: dict = None  # new chunk id -> expected seconds (its points x per-point cost), if known
     sizing: tuple = ()  # (model id, points per job, seconds per point or None, where the cost came from)
-
-    def lines_manifest(self, key: str) -> Path:
-        return self.root / "plan" / f"lines-{key}.json"
+    texts: dict = None  # plan file path (str) -> its exact text (manifests, lines manifests, table file)
+    manifests: dict = None  # chunk id or "lines-<key>" -> manifest path
+    remade: dict = None  # sealed outputs to make again -> reason (they gave the table file a new name)
 
     def lines_outputs(self, key: str) -> tuple[Path, Path]:
-        return self.root / "lines" / f"{key}.parquet", self.root / "lines" / f"{key}-critical.parquet"
-
-    def manifest(self, chunk: str) -> Path:
-        return self.root / "plan" / f"{chunk}.json"
+        return _lines_outputs(self.root, key)
 
     def segment(self, chunk: str) -> Path:
         return self.root / "segments" / f"{chunk}.parquet"
 
+    def chunk_manifest(self, chunk: str) -> Path:
+        """The manifest of a new chunk (in the main process) or, for a chunk this plan does not
+        list (a cluster job re-planning after other chunks finished), the intact one on disk."""
+        return self.manifests.get(chunk) or find_manifest(self.root / "plan", chunk)
 
-def _write_once(path: Path, text: str) -> None:
-    """Write a plan file unless it already holds ``text``. No fsync: plan files are recomputed and
-    compared on every run, so a file torn by a crash is simply rewritten."""
-    if not path.exists() or path.read_text() != text:
-        atomic_write_text(path, text, durable=False)
+    def lines_manifest_file(self, key: str) -> Path:
+        return self.manifests.get("lines-" + key) or find_manifest(self.root / "plan", "lines-" + key)
 
 
-def _sizing(cfg: ScanConfig, mp, ctx: str, missing: list, costs: dict, write: bool, log) -> tuple:
+def _text_hash(text: str) -> str:
+    return hashlib.sha256(text.encode()).hexdigest()[:12]
+
+
+def _free_name(folder: Path, stem: str, text: str) -> Path:
+    """``<stem>.json``, or ``<stem>.<n>.json`` with the first n whose file is absent or already
+    holds ``text``: a damaged or foreign file under a plan file's name is never trusted and never
+    overwritten, and a new name makes Snakemake write it (and remake what depends on it)."""
+    data = text.encode()
+    for n in range(1000):
+        p = folder / (f"{stem}.json" if n == 0 else f"{stem}.{n}.json")
+        try:
+            if not p.exists() or p.read_bytes() == data:
+                return p
+        except OSError:
+            continue
+    raise RuntimeError(f"{folder}: no free name for {stem}")
+
+
+def chunk_manifest_text(doc: dict, chunk: str) -> str:
+    """The manifest of chunk ``chunk``, made from the plan's table document alone (so a job can
+    write it from the table file without planning again)."""
+    pts = [[m, T, mu, k] for m, T, mu, k, c in doc["rows"] if c == chunk]
+    used = sorted({p[0] for p in pts})
+    return json.dumps({"scan": doc["scan"], "chunk": chunk, "code_hash": doc["code_hash"],
+                       "config_hash": doc["config_hash"], "package_version": doc["package_version"],
+                       "models": {m: doc["models"][m] for m in used}, "points": pts}, sort_keys=True)
+
+
+def lines_manifest_text(doc: dict, key: str) -> str:
+    """The manifest of lines job ``key`` (one model's grid), made from the plan's table document."""
+    mid = next(m for m, k in doc["lines"] if k == key)
+    grid = sorted([T, mu] for m, T, mu, _, _ in doc["rows"] if m == mid)
+    return json.dumps({"scan": doc["scan"], "key": key, "code_hash": doc["code_hash"], "model_id": mid,
+                       "spec": doc["models"][mid]["spec"], "solver": doc["models"][mid]["solver"],
+                       "points": grid}, sort_keys=True)
+
+
+def write_manifest_from_table(table_file, out) -> None:
+    """Write the manifest ``out`` (``<chunk>.<hash>[.n].json`` or ``lines-<key>.<hash>[...].json``)
+    from the table file; refuses when the text would not match the hash in its name."""
+    doc = json.loads(Path(table_file).read_text())
+    name = Path(out).name
+    ident, th = name.split(".")[:2]
+    text = (lines_manifest_text(doc, ident[len("lines-"):]) if ident.startswith("lines-")
+            else chunk_manifest_text(doc, ident))
+    if _text_hash(text) != th:
+        raise ValueError(f"{out}: the plan in {Path(table_file).name} gives another manifest; run the workflow again")
+    atomic_write_text(Path(out), text, durable=False)
+
+
+def find_manifest(folder: Path, name: str) -> Path:
+    """An intact manifest ``<name>.<text hash>[.<n>].json`` in ``folder`` (its text hashes to the
+    hash in its name), the first in sorted order; the plain name if there is none (the job then
+    fails with a clear message). Read-only."""
+    for p in sorted(Path(folder).glob(f"{name}.*.json")):
+        parts = p.name[len(name) + 1:].split(".")
+        try:
+            if _text_hash(p.read_text()) == parts[0]:
+                return p
+        except (OSError, UnicodeDecodeError):
+            continue
+    return Path(folder) / f"{name}.json"
+
+
+def write_plan_file(plan: Plan, path) -> None:
+    """Write one plan file (manifest, lines manifest or table file) of ``plan``; for a workflow job
+    of a run that holds the lock. No fsync: plan files are compared with the plan on every run, and
+    one torn by a crash is written again."""
+    text = (plan.texts or {}).get(str(path))
+    if text is None:
+        raise KeyError(f"{path} is not a file of the current plan")
+    atomic_write_text(Path(path), text, durable=False)
+    # a table file renamed to remake stale tables: its plain name too, so that the next run finds
+    # the plan's table file in place and does not remake the fresh tables once more
+    if path == str(plan.table_file) and ".r" in Path(path).name:
+        plain = Path(path).parent / f"table-{plan.plan_hash}.json"
+        if not plain.exists():
+            atomic_write_text(plain, text, durable=False)
+
+
+def write_plan_files(plan: Plan) -> None:
+    """Write every plan file of ``plan`` (table file and manifests): for running a plan without
+    Snakemake (tests, scripts); the workflow writes them one job each."""
+    for path in (plan.texts or {}):
+        write_plan_file(plan, path)
+
+
+def _sizing(cfg: ScanConfig, mp, ctx: str, costs: dict) -> tuple:
     """(points per job, seconds per point or None, source) for one model (see scan/sizing.py)."""
     key = cost_key(ctx)
     known = costs.get(key, {}).get("seconds_per_point")
     if mp.explicit_points_per_job or cfg.job_minutes is None:
         return mp.points_per_job, known, "config" if mp.explicit_points_per_job else "default"
     if known is None:
-        if not (write and missing):
-            return mp.points_per_job, None, "default"
-        known = probe(mp.model, mp.settings, [(p[1], p[2]) for p in missing])
-        costs[key] = {"model_id": mp.model.id, "seconds_per_point": known, "points": 1, "source": "probe"}
-        log(f"holoscan: model '{mp.model.id}': probed one point in {known:.3g} s to size its chunks")
-        return points_per_job(cfg.job_minutes, known), known, "probe"
+        return mp.points_per_job, None, "default"
     return points_per_job(cfg.job_minutes, known), known, costs[key].get("source", "measured")
 
 
-def make_plan(cfg: ScanConfig, results_dir="results", *, write: bool = True, log=None) -> Plan:
-    """Compute keys, compare with the store, pack missing points into chunks, write manifests.
+def _chunk_id(keys, taken) -> str:
+    """Hash of the sorted keys; salted with a counter while the name is held by a damaged or
+    incomplete segment still on disk (so a re-solve never writes over it, and Snakemake, seeing a
+    new file name, solves it whatever its records say)."""
+    base = "\n".join(sorted(keys))
+    cid = hashlib.sha256(base.encode()).hexdigest()[:16]
+    n = 0
+    while cid in taken:
+        n += 1
+        cid = hashlib.sha256(f"{base}\n#{n}".encode()).hexdigest()[:16]
+    return cid
 
-    With ``write=False`` nothing on disk changes (no manifests, no quarantine, no cost probe): used
-    inside jobs.
+
+def make_plan(cfg: ScanConfig, results_dir="results") -> Plan:
+    """Compute keys, compare with the store, pack missing points into chunks. Read-only: nothing on
+    disk changes (no manifests, no quarantine, no cost probe); the plan files are written by
+    workflow jobs (:func:`write_plan_file`) and damaged segments moved by a run holding the lock.
     """
-    import sys
-
-    log = log or (lambda msg: print(msg, file=sys.stderr))
     root = Path(results_dir) / cfg.scan
     code = code_hash()
     chash = config_hash(cfg.canonical_json())
-    index = index_store(root / "segments", quarantine=write)
+    index = index_store(root / "segments")
     models, table, missing, per_model, lines = {}, [], [], [], []
     costs, sizing, cost_of = read_costs(root), [], {}
-    n_costs = len(costs)
     for mp in cfg.models:
         spec, solver = mp.model.spec(), mp.settings.canonical()
         models[mp.model.id] = {"spec": spec, "solver": solver}
@@ -110,7 +203,7 @@ def make_plan(cfg: ScanConfig, results_dir="results", *, write: bool = True, log
             table.append([mp.model.id, T, mu, k])
             if k not in index.where:
                 missing.append([mp.model.id, T, mu, k])
-        ppj, sec, source = _sizing(cfg, mp, ctx, missing[start:], costs, write, log)
+        ppj, sec, source = _sizing(cfg, mp, ctx, costs)
         models[mp.model.id]["cost_key"] = cost_key(ctx)
         sizing.append((mp.model.id, ppj, sec, source))
         cost_of[mp.model.id] = sec
@@ -121,6 +214,10 @@ def make_plan(cfg: ScanConfig, results_dir="results", *, write: bool = True, log
     n_jobs = sum(math.ceil(len(m) / ppj) for ppj, m in per_model if m)
     grow = max(1.0, n_jobs / cfg.max_jobs)
     chunk_of = dict(index.where)
+    # names held by damaged segments, here or already in quarantine: the same in every process,
+    # before and after a run moves them (so a job re-planning gets the same chunk ids)
+    qdir = root / "quarantine"
+    taken = set(index.invalid) | ({p.stem for p in qdir.iterdir()} if qdir.is_dir() else set())
     new_chunks = []
     chunk_seconds = {}
     size = 0
@@ -130,35 +227,89 @@ def make_plan(cfg: ScanConfig, results_dir="results", *, write: bool = True, log
         n_chunks = math.ceil(len(pts_m) / step)
         for i in range(n_chunks):
             pts = pts_m[i::n_chunks]  # dealt round-robin: costly regions spread over the chunks
-            cid = hashlib.sha256("\n".join(sorted(p[3] for p in pts)).encode()).hexdigest()[:16]
+            cid = _chunk_id([p[3] for p in pts], taken)
+            taken.add(cid)
             new_chunks.append((cid, pts))
             if cost_of.get(pts[0][0]) is not None:
                 chunk_seconds[cid] = len(pts) * cost_of[pts[0][0]]
             for p in pts:
                 chunk_of[p[3]] = cid
     rows = [[*p, chunk_of[p[3]]] for p in table]
-    plan_hash = hashlib.sha256(json.dumps([rows, [m["key"] for m in lines]]).encode()).hexdigest()[:16]
-    table_file = root / "plan" / f"table-{plan_hash}.json"
-    if write:
-        if len(costs) != n_costs:
-            write_costs(root, costs)
-        for cid, pts in new_chunks:
-            used = sorted({p[0] for p in pts})
-            manifest = {"scan": cfg.scan, "chunk": cid, "code_hash": code, "config_hash": chash,
-                        "package_version": __version__, "models": {m: models[m] for m in used}, "points": pts}
-            _write_once(root / "plan" / f"{cid}.json", json.dumps(manifest, sort_keys=True))
-        for m in lines:
-            _write_once(root / "plan" / f"lines-{m['key']}.json", json.dumps(m, sort_keys=True))
-        doc = {"scan": cfg.scan, "code_hash": code, "config_hash": chash, "config": cfg.raw,
-               "package_version": __version__, "models": models,
-               "model_order": [mp.model.id for mp in cfg.models],
-               "columns": ["model_id", "T", "mu", "point_key", "chunk"], "rows": rows,
-               "lines": [[m["model_id"], m["key"]] for m in lines]}
-        _write_once(table_file, json.dumps(doc, sort_keys=True, default=str))
+    pdir = root / "plan"
+    doc = {"scan": cfg.scan, "code_hash": code, "config_hash": chash, "config": cfg.raw,
+           "package_version": __version__, "models": models,
+           "model_order": [mp.model.id for mp in cfg.models],
+           "columns": ["model_id", "T", "mu", "point_key", "chunk"], "rows": rows,
+           "lines": [[m["model_id"], m["key"]] for m in lines]}
+    table_text = json.dumps(doc, sort_keys=True, default=str)
+    plan_hash = hashlib.sha256(table_text.encode()).hexdigest()[:16]
+    texts, manifests = {}, {}
+    for cid, _ in new_chunks:
+        manifest = chunk_manifest_text(doc, cid)
+        path = _free_name(pdir, f"{cid}.{_text_hash(manifest)}", manifest)
+        texts[str(path)], manifests[cid] = manifest, path
+    remade = {}
+    for m in lines:
+        text = lines_manifest_text(doc, m["key"])
+        stale = stale_files({str(p): m["key"] for p in _lines_outputs(root, m["key"])})
+        remade.update(stale)
+        stem = f"lines-{m['key']}.{_text_hash(text)}" + (f".r{_state_token(stale)}" if stale else "")
+        path = _free_name(pdir, stem, text)
+        texts[str(path)], manifests["lines-" + m["key"]] = text, path
+    stale = stale_files({str(root / n): plan_hash for n in TABLE_FILES})
+    remade.update(stale)
+    used = None if stale else _table_file_used(root, plan_hash, table_text)
+    table_file = used or _free_name(pdir, f"table-{plan_hash}" + (f".r{_state_token(stale)}" if stale else ""),
+                                    table_text)
+    texts[str(table_file)] = table_text
     return Plan(
         scan=cfg.scan, root=root, n_points=len(table), n_missing=len(missing),
         chunk_ids=tuple(c for c, _ in new_chunks), segment_ids=tuple(sorted({r[4] for r in rows})),
-        table_file=table_file, plan_hash=plan_hash, quarantined=tuple(index.quarantined),
+        table_file=table_file, plan_hash=plan_hash, invalid=dict(index.invalid),
         chunk_size=size or cfg.points_per_job, lines_ids=tuple(m["key"] for m in lines),
-        chunk_seconds=chunk_seconds, sizing=tuple(sizing),
+        chunk_seconds=chunk_seconds, sizing=tuple(sizing), texts=texts, manifests=manifests, remade=remade,
     )
+
+
+#: the tables and summaries of a scan, sealed with the plan hash by the jobs that write them
+TABLE_FILES = ("points.parquet", "summary.json", "summary.txt", "phases.parquet", "transitions.parquet",
+               "critical_points.parquet", "phase_summary.json", "phase_summary.txt")
+
+
+def _table_file_used(root: Path, plan_hash: str, text: str) -> Path | None:
+    """The table file the current tables were assembled from (named in points.parquet), when it is
+    this plan's and intact: keeping its name keeps Snakemake's record of the inputs unchanged."""
+    import pyarrow.parquet as pq
+
+    from .tables import META_KEY
+
+    try:
+        meta = json.loads((pq.read_schema(root / "points.parquet").metadata or {}).get(META_KEY, b"{}"))
+        name = Path(str(meta.get("plan", ""))).name
+    except (OSError, ValueError, TypeError, AttributeError):
+        return None
+    p = root / "plan" / name
+    if not name.startswith(f"table-{plan_hash}") or not p.is_file():
+        return None
+    try:
+        return p if p.read_bytes() == text.encode() else None
+    except OSError:
+        return None
+
+
+def _lines_outputs(root: Path, key: str) -> tuple[Path, Path]:
+    return root / "lines" / f"{key}.parquet", root / "lines" / f"{key}-critical.parquet"
+
+
+def _state_token(stale: dict) -> str:
+    """A name part fixed by the present damage of the stale files: the same damage gives the same
+    name in every process (the main one and cluster jobs), new damage a new one."""
+    h = hashlib.sha256()
+    for path in sorted(stale):
+        p = Path(path)
+        try:
+            st = p.stat()
+            h.update(f"{path}\0{stale[path]}\0{st.st_size}\0{st.st_mtime_ns}\n".encode())
+        except OSError:
+            h.update(f"{path}\0missing\n".encode())
+    return h.hexdigest()[:8]

@@ -16,9 +16,10 @@ Activities: one ``holoscan:ChunkSolve`` per segment (``prov:startTime``/``prov:e
 earliest start and latest end over its rows; ``holoscan:host``: the hosts of its rows, comma
 separated; ``holoscan:log_file``, ``holoscan:rows``), one ``holoscan:LinesSolve`` per lines job
 (times and host from its line rows, when it located any), ``holoscan:Assembly`` (end: the
-``created`` time in the points table), ``holoscan:PhaseTables`` and ``holoscan:Figures`` (end: the
-latest modification time of their outputs; start unknown). Start times that are not known are left
-out, as PROV allows.
+``created`` time in the points table), ``holoscan:PhaseTables`` and ``holoscan:Figures`` (no times:
+their files record none, and a file's modification time would make the record change whenever an
+identical file is written again). Times that are not known are left out, as PROV allows; the
+record depends only on the files' contents.
 
 Agents: the software, ``prov:SoftwareAgent`` with ``holoscan:version`` and ``holoscan:code_hash``,
 one per (version, physics-code hash) found in the rows; each activity ``wasAssociatedWith`` the one
@@ -47,6 +48,9 @@ from ..errors import InputError
 from . import finished
 from .identity import canonical_json
 from .prov_json import ProvDoc, qname
+from .assemble import plan_hash_of
+from .plan import find_manifest
+from .seals import seal_problem
 from .store import atomic_write_text, seal_path, sha256_file
 
 VOCAB = "https://holoscan.example.org/ns#"
@@ -62,11 +66,6 @@ def _utc(text: str) -> datetime:
 
 def _iso(t: datetime | None) -> str | None:
     return None if t is None else t.isoformat()
-
-
-def _mtime(paths) -> datetime | None:
-    times = [datetime.fromtimestamp(Path(p).stat().st_mtime, timezone.utc) for p in paths]
-    return max(times) if times else None
 
 
 def figure_files(root: Path) -> list[Path]:
@@ -133,6 +132,13 @@ class _Builder:
         self.doc.relate("wasDerivedFrom", new, old)
 
 
+def _verified(path: Path, plan_hash: str) -> None:
+    """Certify only a file whose seal names its plan and matches its bytes (scan/seals.py)."""
+    problem = seal_problem(path, plan_hash)
+    if problem:
+        raise InputError(str(Path(path).name), plan_hash, f"not certified: {problem}; run the workflow again")
+
+
 def build(results_dir, figures=None) -> ProvDoc:
     """The PROV document of the finished scan in ``results_dir`` (``results/<scan>``).
 
@@ -141,6 +147,12 @@ def build(results_dir, figures=None) -> ProvDoc:
     root = finished.scan_folder(results_dir)
     meta = finished.run_metadata(root)
     plan_path, plan = finished.read_plan(root, meta)
+    plan_hash = plan_hash_of(plan_path.read_text())
+    if meta.get("plan_hash") not in (None, plan_hash):
+        raise InputError(f"plan/{plan_path.name}", plan_hash, f"is not the plan {meta.get('plan_hash')} of points.parquet")
+    for name in (*[f"{t}.parquet" for t in finished.TABLES], *SUMMARIES):
+        if name.endswith(".parquet") or (root / name).is_file():
+            _verified(root / name, plan_hash)
     b = _Builder(root, meta, plan_path, plan)
     doc = b.doc
     config = b.config(plan["config_hash"])
@@ -158,7 +170,7 @@ def build(results_dir, figures=None) -> ProvDoc:
         seg_e = b.file(seg, "holoscan:Segment", {"holoscan:chunk": chunk})
         act = b.rows_activity(f"run:solve-{chunk}", "holoscan:ChunkSolve", [seg], {"holoscan:chunk": chunk})
         b.gen(seg_e, act)
-        manifest = root / "plan" / f"{chunk}.json"
+        manifest = find_manifest(root / "plan", chunk)
         if manifest.is_file():
             chash = json.loads(manifest.read_text()).get("config_hash")
             man_e = b.file(manifest, "holoscan:Manifest", {"holoscan:config_hash": chash})
@@ -172,13 +184,15 @@ def build(results_dir, figures=None) -> ProvDoc:
     for model_id, key in sorted(plan.get("lines", []), key=lambda x: x[1]):
         files = [finished.require_file(root, f"lines/{key}.parquet"),
                  finished.require_file(root, f"lines/{key}-critical.parquet")]
+        for f in files:
+            _verified(f, key)
         act = b.rows_activity(f"run:lines-{key}", "holoscan:LinesSolve", files,
                               {"holoscan:lines_key": key, "holoscan:model_id": model_id})
         ents = [b.file(f, "holoscan:Lines", {"holoscan:lines_key": key, "holoscan:model_id": model_id}) for f in files]
         for e in ents:
             b.gen(e, act)
         lines_of[key] = ents
-        manifest = root / "plan" / f"lines-{key}.json"
+        manifest = find_manifest(root / "plan", f"lines-{key}")
         if manifest.is_file():
             man_e = b.file(manifest, "holoscan:Manifest", {"holoscan:lines_key": key})
             b.used(act, man_e)
@@ -198,9 +212,7 @@ def build(results_dir, figures=None) -> ProvDoc:
     b.gen(tables["points"], asm)
 
     # phase tables: points + lines -> phases, transitions, critical points (+ summary)
-    outs = [finished.table_path(root, n) for n in ("phases", "transitions", "critical_points")]
-    outs += [root / n for n in ("phase_summary.json", "phase_summary.txt") if (root / n).is_file()]
-    pt = doc.activity("run:phase-tables", None, _iso(_mtime(outs)), {"prov:type": qname("holoscan:PhaseTables")})
+    pt = doc.activity("run:phase-tables", None, None, {"prov:type": qname("holoscan:PhaseTables")})
     doc.relate("wasAssociatedWith", pt, table_agent)
     for e in (plan_e, tables["points"], *[e for ents in lines_of.values() for e in ents]):
         b.used(pt, e)
@@ -220,7 +232,7 @@ def build(results_dir, figures=None) -> ProvDoc:
 
     figs = figure_files(root) if figures is None else [Path(f) for f in figures]
     if figs:
-        fa = doc.activity("run:figures", None, _iso(_mtime(figs)), {"prov:type": qname("holoscan:Figures")})
+        fa = doc.activity("run:figures", None, None, {"prov:type": qname("holoscan:Figures")})
         doc.relate("wasAssociatedWith", fa, table_agent)
         for e in tables.values():
             b.used(fa, e)

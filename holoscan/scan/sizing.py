@@ -4,13 +4,13 @@ With ``job_minutes`` in the scan config, a model without its own ``points_per_jo
 ``points_per_job = floor(job_minutes * 60 / seconds_per_point)`` (at least 1), where
 ``seconds_per_point`` is, in order of preference:
 
-1. measured: from the last assembled table of the scan, the time the model's chunks spent on it
-   (first start to last end of its points in each chunk: solves, a batch's set-up, bookkeeping)
-   divided by its number of points, stored in ``results/<scan>/costs.json`` by assembly under a
-   key of the model context (spec, solver settings, physics code);
-2. probed: one point (the middle of the model's grid) solved at planning time in the main process
-   (for a kind that solves points in batches, a batch of 16, time per point), stored in the same
-   file so that every later plan (and every cluster job) sizes chunks alike.
+measured from the last assembled table of the scan: the time the model's chunks spent on it (first
+start to last end of its points in each chunk: solves, a batch's set-up, bookkeeping) divided by
+its number of points, stored in ``results/<scan>/costs.json`` by assembly under a key of the model
+context (spec, solver settings, physics code). Planning never solves a point (a dry run must solve
+nothing), so the first run of a model context sizes its chunks by ``points_per_job`` and every
+later plan by the measured cost. An entry of the costs file that is not a finite positive number
+of seconds is ignored (the file is rewritten by the next assembly).
 
 Each chunk's expected time (its points times the per-point cost) sets the runtime a job asks the
 scheduler for: three times the expectation, at least 10 minutes, times the attempt number.
@@ -20,7 +20,6 @@ from __future__ import annotations
 import hashlib
 import json
 import math
-import time
 from datetime import datetime
 from pathlib import Path
 
@@ -37,12 +36,20 @@ def cost_key(context: str) -> str:
 
 
 def read_costs(root) -> dict:
+    """The costs file's valid entries (a damaged file or entry counts as unknown cost)."""
     p = Path(root) / COSTS_FILE
     try:
         doc = json.loads(p.read_text())
-    except (OSError, ValueError):
+    except (OSError, ValueError, UnicodeDecodeError):
         return {}
-    return doc if isinstance(doc, dict) else {}
+    if not isinstance(doc, dict):
+        return {}
+    out = {}
+    for k, e in doc.items():
+        sec = e.get("seconds_per_point") if isinstance(e, dict) else None
+        if isinstance(sec, (int, float)) and not isinstance(sec, bool) and math.isfinite(sec) and sec > 0:
+            out[k] = e
+    return out
 
 
 def write_costs(root, costs: dict) -> None:
@@ -56,21 +63,6 @@ def points_per_job(job_minutes: float, seconds_per_point: float) -> int:
 def runtime_minutes(expected_seconds: float, attempt: int = 1) -> int:
     """Runtime to ask the scheduler for (minutes)."""
     return int(max(MIN_RUNTIME_MINUTES, math.ceil(RUNTIME_SAFETY * expected_seconds / 60.0)) * attempt)
-
-
-def probe(model, settings, points, batch: int = 16) -> float:
-    """Seconds per point, measured now: the middle point of ``points`` (all branches); for a kind
-    that solves many points at once (``solve_many``), a batch of up to ``batch`` points around the
-    middle, whose time per point includes the kind's once-per-process set-up shared among them."""
-    from ..point import solve_points
-
-    pts = sorted(points)
-    k = 1 if getattr(model, "solve_many", None) is None else min(batch, len(pts))
-    mid = len(pts) // 2
-    chosen = pts[max(0, mid - k // 2): max(0, mid - k // 2) + k]
-    t0 = time.perf_counter()
-    solve_points(model, chosen, settings)
-    return (time.perf_counter() - t0) / len(chosen)
 
 
 def measured(table, keys_by_model: dict) -> dict:

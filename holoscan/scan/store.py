@@ -3,8 +3,9 @@
 Layout under ``results/<scan>/segments/``: ``<chunk>.parquet`` (the rows) and ``<chunk>.json``
 (its seal: sha256 of the Parquet bytes, the point keys it holds, the code hash). A segment counts
 only when its seal exists and the checksum matches; anything else (missing seal, truncated or
-altered bytes, unreadable seal) is moved to ``results/<scan>/quarantine/`` and its points become
-missing again, so they are solved anew. Files are written under a temporary name in the same folder
+altered bytes, unreadable or malformed seal) is ignored and its points become missing again, so
+they are solved anew under a new chunk id; a run holding the workflow lock later moves its files to
+``results/<scan>/quarantine/``. Indexing never moves a file. Files are written under a temporary name in the same folder
 and renamed when complete (atomic on POSIX filesystems), seal before segment.
 """
 from __future__ import annotations
@@ -69,23 +70,30 @@ def seal_segment(tmp_segment: Path, segment: Path, keys: list[str], code_hash: s
 
 @dataclass
 class StoreIndex:
-    """Which valid segment holds each point key, and what was quarantined."""
+    """Which valid segment holds each point key, and which segments are damaged or incomplete."""
 
     where: dict = field(default_factory=dict)  # key -> chunk id
-    quarantined: list = field(default_factory=list)  # (file name, reason)
+    invalid: dict = field(default_factory=dict)  # chunk id -> reason (left in place by indexing)
+    quarantined: list = field(default_factory=list)  # (chunk id, reason) moved by quarantine()
 
 
-def _quarantine(seg_dir: Path, chunk: str, reason: str, index: StoreIndex) -> None:
-    qdir = seg_dir.parent / "quarantine"
-    qdir.mkdir(parents=True, exist_ok=True)
-    for p in (seg_dir / f"{chunk}.parquet", seg_dir / f"{chunk}.json"):
-        if p.exists():
-            shutil.move(str(p), str(qdir / p.name))
-    index.quarantined.append((chunk, reason))
+def _seal_doc(seal: Path):
+    """The seal's keys if it is well formed, else the reason it is not."""
+    try:
+        meta = json.loads(seal.read_text())
+    except (ValueError, OSError, UnicodeDecodeError) as exc:
+        return None, f"unreadable seal: {type(exc).__name__}"
+    if not isinstance(meta, dict) or not isinstance(meta.get("sha256"), str):
+        return None, "malformed seal (no sha256)"
+    keys = meta.get("keys")
+    if not isinstance(keys, list) or not all(isinstance(k, str) for k in keys):
+        return None, "malformed seal (no list of keys)"
+    return meta, None
 
 
-def index_store(seg_dir: Path, *, quarantine: bool = True) -> StoreIndex:
-    """Verify every segment in ``seg_dir`` and index the keys of the valid ones.
+def index_store(seg_dir: Path) -> StoreIndex:
+    """Verify every segment in ``seg_dir`` and index the keys of the valid ones. Read-only: a
+    damaged or incomplete segment is listed in ``invalid`` and left where it is.
 
     Where two valid segments hold the same key (possible after an interrupted run), the one with the
     smaller chunk id wins, so the choice never depends on timing.
@@ -97,22 +105,40 @@ def index_store(seg_dir: Path, *, quarantine: bool = True) -> StoreIndex:
     chunks = sorted({p.stem for p in seg_dir.glob("*.parquet")} | {p.stem for p in seg_dir.glob("*.json")})
     for chunk in chunks:
         seg, seal = seg_dir / f"{chunk}.parquet", seg_dir / f"{chunk}.json"
-        reason = None
+        reason, meta = None, None
         if not seg.exists():
             reason = "seal without segment"
         elif not seal.exists():
             reason = "segment without seal"
         else:
-            try:
-                meta = json.loads(seal.read_text())
-                if meta.get("sha256") != sha256_file(seg):
-                    reason = "checksum mismatch"
-            except (ValueError, OSError) as exc:
-                reason = f"unreadable seal: {exc}"
+            meta, reason = _seal_doc(seal)
+            if meta is not None and meta["sha256"] != sha256_file(seg):
+                reason = "checksum mismatch"
         if reason:
-            if quarantine:
-                _quarantine(seg_dir, chunk, reason, index)
+            index.invalid[chunk] = reason
             continue
         for k in meta["keys"]:
             index.where.setdefault(k, chunk)
     return index
+
+
+def quarantine(seg_dir: Path, invalid: dict, *, older_than: float) -> list:
+    """Move the files of the ``invalid`` chunks to ``results/<scan>/quarantine/``; only for a run
+    that holds the workflow lock. A chunk whose files changed at or after ``older_than`` (a POSIX
+    time) is left alone: a job of a run still going (a cluster job outliving its Snakemake
+    process) may be between writing its seal and renaming its segment. Returns (chunk, reason)."""
+    seg_dir = Path(seg_dir)
+    qdir = seg_dir.parent / "quarantine"
+    moved = []
+    for chunk, reason in sorted(invalid.items()):
+        files = [p for p in (seg_dir / f"{chunk}.parquet", seg_dir / f"{chunk}.json") if p.exists()]
+        try:
+            if not files or max(p.stat().st_mtime for p in files) >= older_than:
+                continue
+        except OSError:
+            continue
+        qdir.mkdir(parents=True, exist_ok=True)
+        for p in files:
+            shutil.move(str(p), str(qdir / p.name))
+        moved.append((chunk, reason))
+    return moved

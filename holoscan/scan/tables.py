@@ -40,7 +40,7 @@ COLUMNS = [
     ("rho_hat", F64, "1", "rho / T^(d-1)"),
     ("P_hat", F64, "1", "P / T^d"),
     ("chi2_hat", F64, "1", "chi2 / T^(d-2)"),
-    ("status", STR, "", "ok | not converged | failed | no solution"),
+    ("status", STR, "", "ok | not converged | failed | no solution | out of range"),
     ("message", STR, "", "reason for the status, in words"),
     ("method", STR, "", "solution method"),
     ("rtol", F64, "1", "relative tolerance of the ODE integration"),

@@ -1,4 +1,5 @@
-# The table of the current plan, from every segment that holds one of its points.
+# The table of the current plan, from every segment that holds one of its points. Quick: run by
+# the main process.
 rule assemble:
     input:
         plan=lambda wc: str(PLAN.table_file),
@@ -11,6 +12,7 @@ rule assemble:
         plan_hash=PLAN.plan_hash,
     log:
         "logs/assemble/{scan}.log",
+    localrule: True
     shell:
         "{PY} -m holoscan assemble {input.plan} --out {output.table} --summary {output.summary} "
         "--summary-text {output.summary_text} > {log} 2>&1"

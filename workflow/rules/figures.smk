@@ -59,6 +59,7 @@ rule figures:
         figures_code=_figures_code_hash(),
     log:
         "logs/figures/{scan}.log",
+    localrule: True
     threads: 2
     shell:
         "{PY} -m holoscan figures results/{wildcards.scan} --jobs {threads} > {log} 2>&1"

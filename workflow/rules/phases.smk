@@ -2,7 +2,7 @@
 # second-order, crossover and instability points and its critical endpoints. Runs beside the chunks.
 rule solve_lines:
     input:
-        manifest="results/{scan}/plan/lines-{key}.json",
+        manifest=lambda wc: str(PLAN.lines_manifest_file(wc.key)),
     output:
         lines="results/{scan}/lines/{key}.parquet",
         critical="results/{scan}/lines/{key}-critical.parquet",
@@ -16,7 +16,7 @@ rule solve_lines:
 
 
 # The phases table (dominant phase per point) from the points table, and the transitions and
-# critical-point tables from the lines jobs of the current plan.
+# critical-point tables from the lines jobs of the current plan. Quick: run by the main process.
 rule phase_tables:
     input:
         plan=lambda wc: str(PLAN.table_file),
@@ -30,6 +30,7 @@ rule phase_tables:
         summary_text="results/{scan}/phase_summary.txt",
     log:
         "logs/phase_tables/{scan}.log",
+    localrule: True
     shell:
         "{PY} -m holoscan phase-tables {input.plan} --points {input.points} --out-phases {output.phases} "
         "--out-transitions {output.transitions} --out-critical {output.critical} --summary {output.summary} "

@@ -16,6 +16,7 @@ rule provenance:
         crate="results/{scan}/ro-crate-metadata.json",
     log:
         "logs/provenance/{scan}.log",
+    localrule: True
     shell:
         "{PY} -m holoscan provenance results/{wildcards.scan} --out {output.prov} --ro-crate "
         "--figures {input.figures} > {log} 2>&1"
