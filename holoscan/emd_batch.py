@@ -60,8 +60,8 @@ DERIV_SAFETY = 10.0
 #: differentiation gain of the atlas's orders (~100); measured against the one-charge closed form,
 #: the actual chi2 error where the truncation proxy vanishes reached 2.7e-12
 DERIV_ROUNDOFF = 1e-11
-#: an atlas row whose estimate is above accept_error by at most this factor is solved again point by
-#: point (emd_solver's shooting, whose derivatives come from three-step Richardson differences)
+#: an atlas row whose chi2 or cs2 estimate misses accept_error by at most this factor (all else
+#: within it) has its derivatives checked by a second method (finite differences of direct shots)
 NEAR_MISS = 10.0
 _GL_X, _GL_W = np.polynomial.legendre.leggauss(24)
 
@@ -137,22 +137,6 @@ def _note_beyond(r: PointResult, note: str) -> PointResult:
     return replace(r, message=f"{r.message}; {note}", extra={**r.extra, "beyond_reach": note})
 
 
-def _point_by_point(atlas_rows: list, point_rows: list) -> list:
-    """The point solver's rows in place of the atlas's for one target, when it finds the same
-    number of branches and every one is ``ok`` (matched to the atlas's branch order by entropy
-    density); the atlas's estimate is kept in ``extra.atlas_error_estimate``. Else the atlas rows."""
-    if len(point_rows) != len(atlas_rows) or not all(r.status == Status.OK for r in point_rows):
-        return atlas_rows
-    out, left = [], list(point_rows)
-    for a in atlas_rows:
-        k = min(range(len(left)), key=lambda i: abs(left[i].s - a.s))
-        p = left.pop(k)
-        out.append(replace(p, branch=a.branch, message=f"{p.message}; solved point by point (the atlas's estimate "
-                           f"{a.error_estimate:.2g} was above accept_error)",
-                           extra={**p.extra, "atlas_error_estimate": a.error_estimate}))
-    return out
-
-
 # -- the batch ---------------------------------------------------------------------------------------
 class BatchSolver:
     """Batched solves of one model (see module docstring)."""
@@ -225,23 +209,10 @@ class BatchSolver:
             elif not rs:
                 results.append([self._no_solution(T[t], mu[t], share)])
             else:
-                res = [PointResult(**f, branch=b, wall_time=share) for b, f in enumerate(fields[t])]
-                if any(self._short_of_bar(r) for r in res):
-                    fn = solve_sourced if self.sourced else solve_family
-                    res = _point_by_point(res, fn(self.model, self.sh, float(T[t]), float(mu[t]), self.settings))
-                results.append(res)
+                results.append([PointResult(**f, branch=b, wall_time=share) for b, f in enumerate(fields[t])])
             if beyond[t]:
                 results[-1] = [_note_beyond(r, beyond[t]) for r in results[-1]]
         return results
-
-    def _short_of_bar(self, r: PointResult) -> bool:
-        """An atlas row whose only fault is an error estimate above accept_error but within
-        NEAR_MISS times it (residual fine): the point-by-point solver, with its own derivative
-        evidence, may vouch for it. Rows further off are left as they are (the point solver would
-        not bring them under the bar, at a cost of seconds each)."""
-        acc = self.settings.accept_error
-        return (r.status == Status.NOT_CONVERGED and math.isfinite(r.error_estimate)
-                and acc < r.error_estimate <= NEAR_MISS * acc and r.residual is not None and r.residual <= acc)
 
     def _beyond_reach(self, x):
         """Per target, a note when a branch may lie beyond the scanned horizon data (else ""): for an
