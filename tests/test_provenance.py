@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import hashlib
 import json
+import os
 import re
 import shutil
 import subprocess
@@ -147,6 +148,14 @@ def test_provenance_command_is_deterministic_and_rejects_an_altered_segment(scan
     out = tmp_path / "p.json"
     assert holoscan_cli("provenance", str(root), "--out", str(out)).returncode == 0
     assert out.read_bytes() == (root / "provenance.json").read_bytes()
+    # the same files written again later (new modification times, same bytes): the same record
+    later = tmp_path / "later"
+    shutil.copytree(root, later)
+    for f in [*later.glob("figures/*"), *later.glob("*.parquet"), *later.glob("*summary*")]:
+        os.utime(f, (f.stat().st_atime + 3600, f.stat().st_mtime + 3600))
+    again = tmp_path / "p2.json"
+    assert holoscan_cli("provenance", str(later), "--out", str(again)).returncode == 0
+    assert again.read_bytes() == out.read_bytes()
     copy = tmp_path / "pv"
     shutil.copytree(root, copy)
     seg = sorted((copy / "segments").glob("*.parquet"))[0]

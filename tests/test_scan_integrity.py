@@ -199,6 +199,25 @@ def test_dry_run_unlock_lint_and_a_refused_run_change_nothing(tmp_path):
     # the real run quarantines the damaged segment and solves its points again
     p, _ = run(ws)
     assert (root / "quarantine" / seg.name).exists()
+    # a report writes its own file and nothing else
+    before = _snapshot(ws)
+    p = subprocess.run(snakemake_cmd("--report", "report.html"), cwd=ws, capture_output=True, text=True,
+                       timeout=300)
+    assert p.returncode == 0, p.stderr[-2000:]
+    after = _snapshot(ws)
+    assert set(after) - set(before) == {"report.html"}
+    assert {k: v for k, v in after.items() if k != "report.html"} == before
+
+
+def test_a_config_that_is_not_utf8_is_one_line(tmp_path):
+    ws = workspace(tmp_path, DEMO)
+    f = ws / "latin1.yaml"
+    f.write_bytes(yaml.safe_dump(A).replace("scan: u", "scan: u # caf\xe9").encode("latin-1"))
+    c = _holoscan("check", "--config", str(f))
+    assert c.returncode != 0 and "UTF-8" in c.stderr and "Traceback" not in c.stderr
+    p = subprocess.run(snakemake_cmd("-n", "--configfile", str(f)), cwd=ws, capture_output=True, text=True,
+                       timeout=300)
+    assert p.returncode != 0 and "Traceback" not in p.stderr
 
 
 def test_a_seal_younger_than_its_run_is_left_alone(tmp_path):
