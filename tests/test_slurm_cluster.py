@@ -96,6 +96,6 @@ def test_scan_on_slurm_equals_local_and_survives_scancel(tmp_path):
     t = pq.read_table(ws / "results" / "cluster" / "points.parquet")
     keys = t["point_key"].to_pylist()
     assert len(set(keys)) == 110 + 48 and len(keys) == len(set(keys))
-    idx = index_store(ws / "results" / "cluster" / "segments", quarantine=False)
-    assert not idx.quarantined
+    idx = index_store(ws / "results" / "cluster" / "segments")
+    assert not idx.invalid
     assert set(keys) <= set(idx.where)
