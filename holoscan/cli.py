@@ -106,8 +106,8 @@ def cmd_solve_lines(args) -> int:
 def cmd_phase_tables(args) -> int:
     from pathlib import Path
 
-    from .scan.assemble import plan_hash_of
     from .scan.phase_tables import build_phase_tables, dump_json, phase_summary_text
+    from .scan.plan import plan_hash_of
     from .scan.seals import write_seal
     from .scan.store import atomic_write_text
 

@@ -267,8 +267,7 @@ def solve_family(model: EMDModel, sh: EMDShooter, T: float, mu: float, settings:
         # values: the offset-varied shot; floors: mu/T against max(|mu/T|, 1), rho_hat against
         # max(|rho_hat|, RHO_FLOOR s_hat)
         if ot is None:
-            e_vals = math.nan
-            e_s = e_rho = math.nan
+            e_vals = e_s = e_rho = math.nan
         else:
             rel = np.abs(ot[[0, 2, 3]] - o[[0, 2, 3]]) / np.maximum(np.abs(o[[0, 2, 3]]), [1.0, o[2], RHO_FLOOR * o[2]])
             e_vals, e_s, e_rho = float(np.max(rel)), float(rel[1]), float(max(rel[0], rel[2]))

@@ -1,7 +1,6 @@
 """Assemble the phase-diagram table of the current plan from sealed segments."""
 from __future__ import annotations
 
-import hashlib
 import json
 import socket
 from collections import Counter
@@ -14,6 +13,7 @@ import pyarrow.parquet as pq
 
 from .. import __version__
 from ..result import Status
+from .plan import plan_hash_of
 from .seals import write_seal
 from .sizing import measured, read_costs, write_costs
 from .store import atomic_write_table, atomic_write_text, seal_path, sha256_file
@@ -76,10 +76,6 @@ def assemble(table_file, out_table, summary_json, summary_txt=None) -> dict:
             write_seal(path, plan_hash)
     return summary
 
-
-def plan_hash_of(table_text: str) -> str:
-    """The plan hash: the first 16 hex digits of the sha256 of the plan's table file text."""
-    return hashlib.sha256(table_text.encode()).hexdigest()[:16]
 
 
 def summarize(table: pa.Table, model_order) -> dict:

@@ -1,7 +1,6 @@
 """Solve one chunk manifest into a sealed segment. One bad point never stops the chunk."""
 from __future__ import annotations
 
-import hashlib
 import json
 import os
 import socket
@@ -18,7 +17,7 @@ from ..point import solve_points
 from ..result import Status
 from ..settings import SolverSettings
 from .identity import code_hash
-from .store import seal_segment
+from .store import seal_segment, text_hash
 from .tables import rows_to_table
 
 
@@ -40,7 +39,7 @@ def read_manifest(path) -> dict:
     except (OSError, ValueError, UnicodeDecodeError) as exc:
         raise StaleManifest(f"{p}: unreadable manifest ({type(exc).__name__}); run the workflow again to re-plan") from None
     parts = p.name.split(".")
-    if len(parts) >= 3 and hashlib.sha256(text.encode()).hexdigest()[:12] != parts[1]:
+    if len(parts) >= 3 and text_hash(text) != parts[1]:
         raise StaleManifest(f"{p}: damaged manifest (its text does not match its name); run the workflow again")
     if not isinstance(doc, dict) or "code_hash" not in doc:
         raise StaleManifest(f"{p}: not a holoscan manifest")

@@ -26,9 +26,9 @@ from .. import __version__
 from ..phases.lines import has_lines
 from .config import ScanConfig
 from .identity import code_hash, config_hash, model_context, point_key
-from .sizing import cost_key, points_per_job, read_costs
 from .seals import stale_files
-from .store import atomic_write_text, index_store
+from .sizing import cost_key, points_per_job, read_costs
+from .store import atomic_write_text, index_store, text_hash
 
 
 @dataclass(frozen=True)
@@ -65,8 +65,9 @@ class Plan:
         return self.manifests.get("lines-" + key) or find_manifest(self.root / "plan", "lines-" + key)
 
 
-def _text_hash(text: str) -> str:
-    return hashlib.sha256(text.encode()).hexdigest()[:12]
+def plan_hash_of(table_text: str) -> str:
+    """The plan hash: the first 16 hex digits of the sha256 of the plan's table file text."""
+    return hashlib.sha256(table_text.encode()).hexdigest()[:16]
 
 
 def _free_name(folder: Path, stem: str, text: str) -> Path:
@@ -111,7 +112,7 @@ def write_manifest_from_table(table_file, out) -> None:
     ident, th = name.split(".")[:2]
     text = (lines_manifest_text(doc, ident[len("lines-"):]) if ident.startswith("lines-")
             else chunk_manifest_text(doc, ident))
-    if _text_hash(text) != th:
+    if text_hash(text) != th:
         raise ValueError(f"{out}: the plan in {Path(table_file).name} gives another manifest; run the workflow again")
     atomic_write_text(Path(out), text, durable=False)
 
@@ -123,7 +124,7 @@ def find_manifest(folder: Path, name: str) -> Path:
     for p in sorted(Path(folder).glob(f"{name}.*.json")):
         parts = p.name[len(name) + 1:].split(".")
         try:
-            if _text_hash(p.read_text()) == parts[0]:
+            if text_hash(p.read_text()) == parts[0]:
                 return p
         except (OSError, UnicodeDecodeError):
             continue
@@ -138,12 +139,6 @@ def write_plan_file(plan: Plan, path) -> None:
     if text is None:
         raise KeyError(f"{path} is not a file of the current plan")
     atomic_write_text(Path(path), text, durable=False)
-    # a table file renamed to remake stale tables: its plain name too, so that the next run finds
-    # the plan's table file in place and does not remake the fresh tables once more
-    if path == str(plan.table_file) and ".r" in Path(path).name:
-        plain = Path(path).parent / f"table-{plan.plan_hash}.json"
-        if not plain.exists():
-            atomic_write_text(plain, text, durable=False)
 
 
 def write_plan_files(plan: Plan) -> None:
@@ -242,18 +237,18 @@ def make_plan(cfg: ScanConfig, results_dir="results") -> Plan:
            "columns": ["model_id", "T", "mu", "point_key", "chunk"], "rows": rows,
            "lines": [[m["model_id"], m["key"]] for m in lines]}
     table_text = json.dumps(doc, sort_keys=True, default=str)
-    plan_hash = hashlib.sha256(table_text.encode()).hexdigest()[:16]
+    plan_hash = plan_hash_of(table_text)
     texts, manifests = {}, {}
     for cid, _ in new_chunks:
         manifest = chunk_manifest_text(doc, cid)
-        path = _free_name(pdir, f"{cid}.{_text_hash(manifest)}", manifest)
+        path = _free_name(pdir, f"{cid}.{text_hash(manifest)}", manifest)
         texts[str(path)], manifests[cid] = manifest, path
     remade = {}
     for m in lines:
         text = lines_manifest_text(doc, m["key"])
         stale = stale_files({str(p): m["key"] for p in _lines_outputs(root, m["key"])})
         remade.update(stale)
-        stem = f"lines-{m['key']}.{_text_hash(text)}" + (f".r{_state_token(stale)}" if stale else "")
+        stem = f"lines-{m['key']}.{text_hash(text)}" + (f".r{_state_token(stale)}" if stale else "")
         path = _free_name(pdir, stem, text)
         texts[str(path)], manifests["lines-" + m["key"]] = text, path
     stale = stale_files({str(root / n): plan_hash for n in TABLE_FILES})

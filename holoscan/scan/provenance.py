@@ -47,9 +47,8 @@ import pyarrow.parquet as pq
 from ..errors import InputError
 from . import finished
 from .identity import canonical_json
+from .plan import find_manifest, plan_hash_of
 from .prov_json import ProvDoc, qname
-from .assemble import plan_hash_of
-from .plan import find_manifest
 from .seals import seal_problem
 from .store import atomic_write_text, seal_path, sha256_file
 

@@ -1,6 +1,6 @@
 """Seals of the finished files of a scan: which plan a file belongs to and which bytes it had.
 
-Every table, summary, lines file and manifest a workflow rule writes gets a seal beside it,
+Every table, summary and lines file a workflow rule writes gets a seal beside it,
 ``<file>.seal`` (JSON: file name, sha256 and size of its bytes, the hash of the plan it was made
 for). A file counts as current only when its seal exists, names the current plan and matches the
 file's bytes; otherwise the workflow makes it again, whatever Snakemake's own records (file times,

@@ -16,7 +16,6 @@ from .plan import make_plan
 from .store import quarantine
 
 
-
 class ConfigProblem(Exception):
     pass
 

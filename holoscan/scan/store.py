@@ -26,6 +26,11 @@ def sha256_file(path: Path) -> str:
     return h.hexdigest()
 
 
+def text_hash(text: str) -> str:
+    """The hash a plan file's name carries: the first 12 hex digits of the sha256 of its text."""
+    return hashlib.sha256(text.encode()).hexdigest()[:12]
+
+
 def atomic_write_bytes(path: Path, data: bytes, durable: bool = True) -> None:
     """Write to a temporary name in the same folder, then rename; ``durable`` fsyncs first."""
     path = Path(path)
