@@ -18,7 +18,7 @@ from pathlib import Path
 sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "tests"))
 
 from holoscan import model_from_block, solve_point  # noqa: E402
-from holoscan.models.emd import _shooter  # noqa: E402
+from holoscan.kinds.emd.pointwise import shooter_for  # noqa: E402
 from test_emd_onecharge import ONE_CHARGE, closed  # noqa: E402
 
 
@@ -28,7 +28,7 @@ def main():
     n = ap.parse_args().points
     m = model_from_block(ONE_CHARGE)
     t0 = time.perf_counter()
-    sh = _shooter(m, *m.couplings())
+    sh = shooter_for(m, *m.couplings())
     sh.grid()
     t_grid = time.perf_counter() - t0
     xs = [0.1 + (2.15 - 0.1) * k / max(n - 1, 1) for k in range(n)]

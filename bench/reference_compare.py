@@ -49,7 +49,7 @@ def _ref_worker(args):
 
 
 def holoscan_rows(V, f, source, targets):
-    from holoscan.models.emd import EMDModel
+    from holoscan.kinds.emd.model import EMDModel
     m = EMDModel(id="x", kappa_sq=1.0, V=V, f=f, source=source)
     out = []
     for (T, mu), res in zip(targets, m.solve_many(targets)):

@@ -6,7 +6,7 @@ workflow engine. Public entry points are re-exported here.
 __version__ = "0.1.0"
 
 from .errors import InputError
-from .models import KINDS, RNModel, model_from_block, models_from_list
+from .kinds import KINDS, RNModel, model_from_block, models_from_list
 from .point import solve_point
 from .result import OBSERVABLES, PointResult, Status
 from .settings import SolverSettings

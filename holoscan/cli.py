@@ -9,8 +9,9 @@ import sys
 from . import __version__
 from .config import load_models, pick_model, read_yaml
 from .errors import InputError
+from .kinds import KINDS
 from .point import check_target, resolve_method, solve_point
-from .settings import METHODS
+from .settings import methods
 
 
 def _json_ready(obj):
@@ -135,9 +136,9 @@ def cmd_onset(args) -> int:
     doc = read_yaml(args.config)
     models, settings = load_models(doc)
     model = pick_model(models, args.model)
-    if not hasattr(model, "onset"):
+    if not model.has_onset:
         raise InputError("--model", args.model, f"kind '{model.kind}' has no scalar condensation onset; "
-                         "use a model of kind charged-scalar")
+                         "use a model of a kind with one: " + ", ".join(k for k, c in KINDS.items() if c.has_onset))
     if v_mu == 0.0:
         raise InputError("--mu", args.mu, "the onset temperature at mu = 0 is 0 (conformal model): give mu != 0")
     settings = resolve_method(model, settings, "solver.method")
@@ -195,7 +196,7 @@ def build_parser() -> argparse.ArgumentParser:
     pt.add_argument("--model", required=True, help="model id in the config")
     pt.add_argument("--T", required=True, type=float, help="temperature (> 0)")
     pt.add_argument("--mu", required=True, type=float, help="chemical potential (any sign)")
-    pt.add_argument("--method", choices=METHODS, help="solution method (default: the kind's own)")
+    pt.add_argument("--method", choices=methods(), help="solution method (default: the kind's own)")
     pt.set_defaults(func=cmd_point)
 
     au = sub.add_parser("audit", help="print everything recorded about one row of a table")

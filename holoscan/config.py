@@ -11,7 +11,7 @@ from pathlib import Path
 import yaml
 
 from .errors import InputError
-from .models import models_from_list
+from .kinds import models_from_list
 from .settings import SolverSettings
 
 

@@ -37,8 +37,8 @@ def resolve_method(model, settings: SolverSettings, key: str = "solver.method") 
 
 
 def dimension(model) -> int:
-    """Boundary spacetime dimension d of a model (``emd`` is d = 4 by construction)."""
-    return int(getattr(model, "d", 4))
+    """Boundary spacetime dimension d of a model (part of the kind contract)."""
+    return int(model.d)
 
 
 def range_reason(T: float, d: int) -> str:
@@ -90,13 +90,13 @@ def solve_point(model, T, mu, settings: SolverSettings | None = None) -> list[Po
 def solve_points(model, targets, settings: SolverSettings | None = None) -> list[list[PointResult]]:
     """:func:`solve_point` for many targets ``[(T, mu), ...]`` of one model: one list per target.
 
-    A kind that can solve targets together (``model.solve_many``, e.g. ``emd`` through its atlas)
-    does so in one batch; others are solved one by one. Targets are validated before any work.
+    A kind that solves targets together (``batched``, e.g. ``emd`` through its atlas) gets them in
+    one ``solve_many`` call; others are solved one by one. Targets are validated before any work.
     """
     targets = [check_target(T, mu, key_T=f"targets[{k}].T", key_mu=f"targets[{k}].mu")
                for k, (T, mu) in enumerate(targets)]
     settings = resolve_method(model, settings or SolverSettings())
-    many = getattr(model, "solve_many", None)
+    many = model.solve_many if model.batched else None
     d = dimension(model)
     inside = [k for k, (T, _) in enumerate(targets) if not range_reason(T, d)]
     rows = {k: _guarded(model, *targets[k], settings) for k in range(len(targets)) if k not in inside}

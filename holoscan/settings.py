@@ -5,9 +5,15 @@ from dataclasses import asdict, dataclass
 
 from . import validate as v
 from .errors import InputError
-from .engine import ShootSettings
+from .numerics import ShootSettings
 
-METHODS = ("auto", "closed-form", "shooting")
+
+
+def methods() -> tuple[str, ...]:
+    """``auto`` and every method of a registered model kind (:func:`holoscan.kinds.all_methods`)."""
+    from .kinds import all_methods
+
+    return all_methods()
 
 
 #: largest accepted value of each tolerance-like setting (the scan schema states the same maxima)
@@ -20,8 +26,9 @@ class SolverSettings:
 
     Parameters
     ----------
-    method : {"auto", "closed-form", "shooting"}
-        ``auto`` picks each model kind's default (documented on the kind).
+    method : str
+        ``auto`` (each model kind's default, documented on the kind) or a method of a registered
+        kind (:func:`methods`; whether the model's kind offers it is checked per model).
     rtol : float
         Relative tolerance of the ODE integration (absolute tolerance is effectively zero).
     horizon_offset : float
@@ -48,8 +55,9 @@ class SolverSettings:
         v.mapping(block, key)
         v.only_keys(block, {"method", "rtol", "horizon_offset", "accept_error", "fd_step"}, key)
         method = block.get("method", "auto")
-        if method not in METHODS:
-            raise InputError(f"{key}.method", method, f"unknown method; known: {', '.join(METHODS)}")
+        known = methods()
+        if method not in known:
+            raise InputError(f"{key}.method", method, f"unknown method; known: {', '.join(known)}")
         out = cls(method=method)
         vals = {}
         for name, cap in UPPER_LIMITS.items():

@@ -21,7 +21,7 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 import pytest
 
-from holoscan.models import model_from_block
+from holoscan.kinds import model_from_block
 from holoscan.scan.chunk import solve_manifest
 from holoscan.scan.identity import code_hash, model_context, point_key
 from holoscan.scan.tables import rows_to_table

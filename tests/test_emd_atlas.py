@@ -15,9 +15,9 @@ import pytest
 from numpy.polynomial import chebyshev as C
 
 from holoscan import SolverSettings, Status, model_from_block, solve_point
-from holoscan.atlas.cheb import PatchSet, fit, nodes
-from holoscan.emd_batch import BatchSolver
-from holoscan.models.emd import _shooter
+from holoscan.numerics.cheb import PatchSet, fit, nodes
+from holoscan.kinds.emd.batch import BatchSolver
+from holoscan.kinds.emd.pointwise import shooter_for
 from test_emd_onecharge import ONE_CHARGE, X_MAX, closed
 
 DEMO = {"id": "demo", "kind": "emd", "kappa_sq": 1.0, "source": True,
@@ -127,7 +127,7 @@ def test_a_corrupted_atlas_is_caught_by_the_verification_shot(demo):
     # the per-point error estimate is evidence, not decoration (common practice, no source): perturb
     # the atlas (log s_hat) by 1e-6 on the leaf holding the root; the direct shot must expose it
     V, f = demo.couplings()
-    solver = BatchSolver(demo, _shooter(demo, V, f), SolverSettings().with_method("atlas"))
+    solver = BatchSolver(demo, shooter_for(demo, V, f), SolverSettings().with_method("atlas"))
     (good,) = solver.solve(np.array([0.25]), np.array([0.3]))[0]
     assert good.status is Status.OK and good.error_estimate < 1e-8
     c0, c1 = math.log(good.extra["horizon_phi0"]), good.extra["horizon_u"]
@@ -145,10 +145,10 @@ def test_values_do_not_depend_on_the_batch(demo):
     # batched arithmetic)
     V, f = demo.couplings()
     settings = SolverSettings().with_method("atlas")
-    alone = BatchSolver(demo, _shooter(demo, V, f), settings).solve(np.array([0.21]), np.array([0.55]))[0]
+    alone = BatchSolver(demo, shooter_for(demo, V, f), settings).solve(np.array([0.21]), np.array([0.55]))[0]
     T = np.r_[np.linspace(0.17, 0.27, 7), 0.21]
     mu = np.r_[np.linspace(0.0, 1.0, 7), 0.55]
-    batch = BatchSolver(demo, _shooter(demo, V, f), settings).solve(T, mu)[-1]
+    batch = BatchSolver(demo, shooter_for(demo, V, f), settings).solve(T, mu)[-1]
     assert len(alone) == len(batch)
     for a, b in zip(alone, batch):
         for k in ("s", "rho", "P", "chi2", "cs2"):

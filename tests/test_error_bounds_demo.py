@@ -13,7 +13,7 @@ Commun. Math. Phys. 217, 595; Bianchi, Freedman & Skenderis 2002, Nucl. Phys. B 
 import pytest
 
 from holoscan import Status
-from holoscan.models.emd import EMDModel
+from holoscan.kinds.emd.model import EMDModel
 from reference.emd_zgauge import solve
 from reference.models import DEMO_F, DEMO_V, demo
 

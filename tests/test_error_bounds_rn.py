@@ -1,4 +1,4 @@
-"""Error bounds of the Reissner-Nordstrom shooting path (holoscan.conformal) against a closed form
+"""Error bounds of the Reissner-Nordstrom shooting path (holoscan.bulk.conformal) against a closed form
 written here from our own derivation.
 
 Reference: the planar RN-AdS_{d+1} brane (Chamblin, Emparan, Johnson & Myers 1999, Phys. Rev. D 60,
@@ -18,7 +18,7 @@ rounding; Squire & Trapp 1998, SIAM Review 40, 110), so it does not rest on the 
 chi2 comes from the same differentiation and cs2 = 1/(d-1) is the conformal value (tracelessness
 plus the Euler relation; common practice, no source).
 
-Each observable's actual error is measured as the solver states it (holoscan.conformal): relative,
+Each observable's actual error is measured as the solver states it (holoscan.bulk.conformal): relative,
 rho relative to max(|rho|, 1e-3 s).
 """
 import cmath
@@ -134,10 +134,10 @@ def test_each_component_catches_its_own_degradation(change, component):
 
 
 def test_horizon_offset_error_is_second_order():
-    # The second-order horizon series leaves an error ~ offset^2 (holoscan.conformal divides the
+    # The second-order horizon series leaves an error ~ offset^2 (holoscan.bulk.conformal divides the
     # change under a 10x offset by 99): measured here, a factor 100 per decade.
     from holoscan.bulk.charged_brane import HorizonData
-    from holoscan.engine import ShootSettings, shoot
+    from holoscan.numerics import ShootSettings, shoot
 
     m = RNModel("m", 4, kappa_sq=1.3, e_sq=0.6)
     br = m.brane()

@@ -1,5 +1,5 @@
-"""Error bounds of the charged-scalar condensed branch (holoscan.models.charged_scalar,
-holoscan.hairy_solver) against an independent route written here: a Chebyshev collocation solve of
+"""Error bounds of the charged-scalar condensed branch (holoscan.kinds.charged_scalar.model,
+holoscan.kinds.charged_scalar.solver) against an independent route written here: a Chebyshev collocation solve of
 the backreacted hairy brane in z = r_h/r, in a different gauge (chi = 0 at the boundary), with the
 pressure read from the z^3 coefficient of the metric (the stress tensor) rather than from the
 Euler relation, and chi2 from central differences of whole solves. Nothing here imports a holoscan

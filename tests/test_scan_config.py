@@ -36,6 +36,7 @@ from hypothesis import strategies as st
 
 from holoscan.errors import InputError
 from holoscan.scan.config import validate_scan_config
+from holoscan.settings import methods
 
 REPO = Path(__file__).resolve().parents[1]
 NAN, INF = float("nan"), float("inf")
@@ -254,7 +255,7 @@ def test_malformed_config_names_key_and_value(mutation, key, value):
 #    prefix-compatible with the mutated path; the bad value's repr is in the message.
 # ---------------------------------------------------------------------------------------------------
 NAME_RE = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_.-]{0,63}$")  # schema pattern of scan and model ids
-METHODS = ("auto", "closed-form", "shooting")
+METHODS = methods()  # every method of a registered kind (the registry is the one list)
 
 
 def _floatlike(s: str) -> bool:

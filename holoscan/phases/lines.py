@@ -1,22 +1,19 @@
 """Transition lines and critical points of one model over the (T, mu) region of its grid.
 
-What is located, per model kind (units: the config's T and mu; each row has an uncertainty):
+The records (:class:`LinePoint`, :class:`CriticalPoint`) and the driver :func:`locate`; what is
+located is the kind's business (``locate_lines`` of :mod:`holoscan.kinds.base`):
 
-- ``emd`` with a source (:mod:`.fixed_mu`): at every grid ``|mu|``, the fixed-``mu`` solution curve
-  is sampled in horizon data; with two folds it gives a ``first-order`` point (equal ``Omega`` of
-  the hot and cold branches, ``T*`` refined continuously between the grid temperatures, with the
-  latent heat ``T* (s_high - s_low)`` and the jump of ``rho``) and two ``instability`` points
-  (spinodals, where the high- and the low-entropy branch stop being locally stable); without folds,
-  a ``crossover`` point (maximum of ``ds/dT`` at fixed ``mu``). The critical endpoint is the root in
-  ``mu`` of the fold measure between the last grid ``|mu|`` without folds and the first with.
-- ``emd`` without a source (:mod:`.family`): each fold ``x*`` of ``mu/T`` along the conformal
-  family is an ``instability`` line ``mu = x* T``, written at every grid temperature.
-- ``charged-scalar``: the ``second-order`` line ``T_c(mu)`` from the onset of a normalisable static
-  scalar zero mode on the normal brane, at every non-zero grid ``|mu|``.
+- ``emd`` with a source (:mod:`holoscan.kinds.emd.lines`): first-order points (equal ``Omega``),
+  spinodal ``instability`` points and ``crossover`` points at every grid ``|mu|``, and the critical
+  endpoint;
+- ``emd`` without a source: each fold ``x*`` of ``mu/T`` is an ``instability`` line ``mu = x* T``;
+- ``charged-scalar`` (:mod:`holoscan.kinds.charged_scalar.lines`): the ``second-order`` line
+  ``T_c(mu)`` from the onset of a normalisable static scalar zero mode;
 - ``rn`` and scalar-free ``emd``: a unique, stable brane; no lines.
 
-Rows for negative grid ``mu`` mirror those at ``|mu|`` (``mu -> -mu`` symmetry). A failure
-becomes a row with status ``failed`` and the reason; it never stops the other rows.
+Units: the config's T and mu; each row has an uncertainty. Rows for negative grid ``mu`` mirror
+those at ``|mu|`` (``mu -> -mu`` symmetry). A failure becomes a row with status ``failed`` and the
+reason; it never stops the other rows.
 """
 from __future__ import annotations
 
@@ -24,14 +21,7 @@ import math
 import time
 from dataclasses import asdict, dataclass, field
 
-from ..engine import Counters
 from ..settings import SolverSettings
-
-#: Chebyshev-Lobatto nodes per fixed-mu curve (the (n+1)/2 subset gives the uncertainty)
-CURVE_NODES = 41
-#: the curves span the grid's temperatures widened by this factor on each side
-T_MARGIN = 1.3
-
 
 @dataclass(frozen=True, kw_only=True)
 class _Outcome:
@@ -83,7 +73,7 @@ class CriticalPoint(_Outcome):
         return asdict(self)
 
 
-def _mirror(rows: list[LinePoint], negative: bool) -> list[LinePoint]:
+def mirror(rows: list[LinePoint], negative: bool) -> list[LinePoint]:
     if not negative:
         return rows
     from dataclasses import replace
@@ -92,187 +82,22 @@ def _mirror(rows: list[LinePoint], negative: bool) -> list[LinePoint]:
 
 
 def has_lines(model) -> bool:
-    """True for the model kinds with lines to locate (see the module docstring)."""
-    return (model.kind == "emd" and not model.scalar_free()) or model.kind == "charged-scalar"
+    """True for a model with lines to locate (its kind says)."""
+    return model.has_lines()
 
 
 def locate(model, settings: SolverSettings, points) -> tuple[list[LinePoint], list[CriticalPoint]]:
     """Every line point and critical point of ``model`` over the region of its grid ``points``
     (a sequence of ``(T, mu)``)."""
+    if not model.has_lines():
+        return [], []
     Ts = sorted({T for T, _ in points})
     mus = sorted({abs(mu) for _, mu in points})
     negative = any(mu < 0 for _, mu in points)
-    if model.kind == "emd" and not model.scalar_free():
-        if model.source:
-            rows, cps = _emd_sourced(model, settings, Ts, mus)
-        else:
-            rows, cps = _emd_family(model, settings, Ts, mus), []
-        return _mirror(rows, negative), cps
-    if model.kind == "charged-scalar":
-        return _mirror(_onset_line(model, settings, mus), negative), []
-    return [], []
+    rows, cps = model.locate_lines(settings, Ts, mus)
+    return mirror(rows, negative), cps
 
 
-def _failed(model_id, type_, method, T, mu, exc, t0, cnt=None) -> LinePoint:
+def failed_point(model_id, type_, method, T, mu, exc, t0, cnt=None) -> LinePoint:
     return LinePoint(model_id, type_, method, T, mu, status="failed", message=f"{type(exc).__name__}: {exc}",
                      shots=cnt.shots if cnt else 0, wall_time=time.perf_counter() - t0)
-
-
-def _curve_shooter(model, settings):
-    """What the fixed-mu curves are sampled with: the model's atlas (method ``atlas``, the default)
-    or direct shots (method ``shooting``)."""
-    from ..models.emd import _shooter
-
-    V, f = model.couplings()
-    sh = _shooter(model, V, f)
-    if settings.method in ("atlas", "auto"):
-        from ..atlas.brane_map import AtlasShooter
-        from ..emd_batch import batch_solver
-
-        return AtlasShooter(batch_solver(model, sh, settings.with_method("atlas")).map)
-    return sh
-
-
-def _emd_sourced(model, settings, Ts, mus):
-
-    from . import fixed_mu as fm
-
-    sh = _curve_shooter(model, settings)
-    ss = settings.shoot_settings()
-    L = model.energy_scale
-    T_lo, T_hi = Ts[0] / L / T_MARGIN, Ts[-1] / L * T_MARGIN
-    n = CURVE_NODES
-    on = " (interpolated by the atlas)" if hasattr(sh, "map") else ""
-    curve_method = f"fixed-mu curve in horizon data{on}, {n} Chebyshev nodes"
-    rows, measures = [], []
-    for mu in mus:
-        t0, cnt = time.perf_counter(), Counters()
-        mh = mu / L
-        try:
-            w = fm.window(sh, mh, T_lo, T_hi)
-            if w is None:
-                raise ArithmeticError(f"no brane of this model at mu = {mu:.6g} in the grid's temperature range")
-            fine, half = fm.sample(sh, mh, *w, n, ss, cnt)
-        except (ArithmeticError, ValueError, RuntimeError) as exc:
-            rows.append(_failed(model.id, "first-order", curve_method, math.nan, mu, exc, t0, cnt))
-            continue
-        measures.append((mh, fine.fold_measure()[0], w))
-        common = dict(shots=cnt.shots, wall_time=time.perf_counter() - t0)
-        co, co_h = fine.coexistence(), half.coexistence()
-        nf = len(fine.folds())
-        if co is not None:
-            dT = abs(co["T"] - co_h["T"]) if co_h else math.nan
-            rows.append(LinePoint(
-                model.id, "first-order", "equal Omega (integral of s dT between the branches) on a " + curve_method,
-                co["T"] * L, mu, T_err=dT * L, latent_heat=co["latent_heat"] * L**4,
-                rho_jump=(co["rho_hot"] - co["rho_cold"]) * L**3, s_high=co["s_hot"] * L**3,
-                s_low=co["s_cold"] * L**3,
-                message="located" if co_h else "located; the half-resolution curve misses it (uncertainty unknown)",
-                status="ok" if co_h else "not converged",
-                extra={k: co[k] for k in ("phi0_hot", "phi0_cold")}, **common))
-            for which, key, side in (("high-entropy", "T_spinodal_low", "hot"), ("low-entropy", "T_spinodal_high", "cold")):
-                err = abs(co[key] - co_h[key]) if co_h else math.nan
-                rows.append(LinePoint(model.id, "instability", "fold of T along the " + curve_method, co[key] * L, mu,
-                                      T_err=err * L, message=f"the {which} branch stops being locally stable",
-                                      status="ok" if co_h else "not converged", extra={"branch": which}, **common))
-        elif nf == 0:
-            cr, cr_h = fine.crossover(), half.crossover()
-            if cr is not None:
-                dT = abs(cr["T"] - cr_h["T"]) if cr_h else math.nan
-                rows.append(LinePoint(model.id, "crossover", "maximum of ds/dT at fixed mu on a " + curve_method,
-                                      cr["T"] * L, mu, T_err=dT * L, message="located",
-                                      status="ok" if cr_h else "not converged",
-                                      extra={"ds_dT": cr["ds_dT"] * L**2, "phi0": cr["phi0"]}, **common))
-        else:
-            rows.append(LinePoint(model.id, "first-order", curve_method, math.nan, mu, status="not converged",
-                                  message=f"{nf} fold(s) without a resolvable coexistence region in the "
-                                          "grid's temperature range", **common))
-    cps = []
-    for (a, ga, _), (b, gb, wb) in zip(measures, measures[1:]):
-        if ga < 0.0 < gb:
-            cps.append(_critical_point(model, sh, ss, a, b, wb, n, L))
-            break
-    return rows, cps
-
-
-def _critical_point(model, sh, ss, a, b, window, n, L) -> CriticalPoint:
-    """Root in mu of the fold measure on [a, b] (source units), at full and half resolution."""
-    from scipy.optimize import brentq
-
-    from . import fixed_mu as fm
-
-    t0, cnt = time.perf_counter(), Counters()
-    cache = {}
-
-    def peak_T(c):
-        return float(c.T(c.fold_measure()[1]))
-
-    def curves(mh):
-        if mh not in cache:
-            cache[mh] = fm.sample(sh, mh, *window, n, ss, cnt)
-        return cache[mh]
-
-    method = f"zero of the fold measure max(dT/dlog phi0)/T along fixed-mu curves ({n} Chebyshev nodes), Brent in mu"
-    try:
-        mu_f = brentq(lambda m: curves(m)[0].fold_measure()[0], a, b, xtol=1e-9, rtol=1e-12)
-        fine, half = curves(mu_f)
-        T_f = peak_T(fine)
-        # the half-resolution root by one secant step from mu_f through the nearest other evaluated
-        # mu (no new curves); its distance from mu_f is the interpolation uncertainty of mu_c, and
-        # the uncertainty of T_c adds the slope of T_c(mu) times that distance
-        far = min((m for m in cache if m != mu_f), key=lambda m: abs(m - mu_f))
-        gh = [curves(m)[1].fold_measure()[0] for m in (mu_f, far)]
-        mu_h = mu_f - gh[0] * (far - mu_f) / (gh[1] - gh[0])
-        slope = (T_f - peak_T(curves(far)[0])) / (mu_f - far)
-        T_err = abs(peak_T(half) - T_f) + abs(slope * (mu_h - mu_f))
-    except (ArithmeticError, ValueError, RuntimeError, ZeroDivisionError) as exc:
-        return CriticalPoint(model.id, method, math.nan, math.nan, math.nan, math.nan, status="failed",
-                             message=f"{type(exc).__name__}: {exc}", shots=cnt.shots,
-                             wall_time=time.perf_counter() - t0)
-    return CriticalPoint(model.id, method, T_f * L, mu_f * L, T_err=(T_err + 1e-9) * L,
-                         mu_err=(abs(mu_f - mu_h) + 1e-9) * L, message="located", shots=cnt.shots,
-                         wall_time=time.perf_counter() - t0,
-                         extra={"bracket_mu": [a * L, b * L], "phi0": float(math.exp(fine.l(fine.fold_measure()[1])))})
-
-
-def _emd_family(model, settings, Ts, mus):
-    from ..models.emd import _shooter
-    from .family import folds
-
-    V, f = model.couplings()
-    sh = _shooter(model, V, f)
-    t0, cnt = time.perf_counter(), Counters()
-    method = "fold of mu/T along the unsourced family (bounded minimisation in phi0)"
-    try:
-        found = folds(sh, settings.shoot_settings(), cnt)
-    except (ArithmeticError, ValueError, RuntimeError) as exc:
-        return [_failed(model.id, "instability", method, math.nan, math.nan, exc, t0, cnt)]
-    rows = []
-    for fo in found:
-        for T in Ts:
-            rows.append(LinePoint(model.id, "instability", method, T, fo["x"] * T, T_err=0.0,
-                                  mu_err=fo["error_estimate"] * T,
-                                  message=f"mu/T = {fo['x']:.12g} is the {fo['kind']}imum of mu/T along the family; "
-                                          "beyond it a branch is locally unstable",
-                                  shots=cnt.shots, wall_time=time.perf_counter() - t0,
-                                  extra={"mu_over_T": fo["x"], "phi0": fo["phi0"], "fold": fo["kind"]}))
-    return rows
-
-
-def _onset_line(model, settings, mus):
-    rows = []
-    for mu in mus:
-        if mu == 0.0:
-            continue
-        t0 = time.perf_counter()
-        try:
-            on = model.onset(mu, settings)
-        except (ArithmeticError, ValueError, RuntimeError) as exc:
-            rows.append(_failed(model.id, "second-order", "onset of a static scalar zero mode", math.nan, mu, exc, t0))
-            continue
-        rows.append(LinePoint(model.id, "second-order", on.get("method", "onset of a static scalar zero mode"),
-                              on["T_c"], mu, T_err=abs(on["T_c"]) * on.get("error_estimate", math.nan),
-                              status=on.get("status", "ok"), message=on.get("message", ""),
-                              wall_time=time.perf_counter() - t0,
-                              extra={"rho": on.get("rho"), "mu_over_T": on.get("mu_over_T")}))
-    return rows

@@ -12,7 +12,7 @@ from pathlib import Path
 import pyarrow.parquet as pq
 
 from .. import __version__
-from ..models import model_from_block
+from ..kinds import model_from_block
 from ..point import solve_points
 from ..result import Status
 from ..settings import SolverSettings
@@ -74,7 +74,7 @@ def solve_manifest(manifest: dict, *, log_file: str = "", log=print) -> list[dic
 
 def _batches(model, pts):
     """Points of one model in solve order: one batch for a kind that solves many at once."""
-    if getattr(model, "solve_many", None) is not None:
+    if model.batched:
         return [pts]
     return [[p] for p in pts]
 
@@ -89,7 +89,7 @@ def _solve_block(model, settings, mid, block, base, log) -> list[dict]:
     except Exception as exc:  # a bug must not cost the other points: record it, then go one by one
         if len(block) == 1:
             T, mu, _ = block[0]
-            per_point = [[{"model_id": mid, "kind": model.kind, "d": getattr(model, "d", 0), "branch": 0, "T": T,
+            per_point = [[{"model_id": mid, "kind": model.kind, "d": model.d, "branch": 0, "T": T,
                            "mu": mu, "status": Status.FAILED.value, "method": settings.method,
                            "message": f"internal error: {type(exc).__name__}: {exc}",
                            "wall_time": time.perf_counter() - t0}]]

@@ -15,7 +15,7 @@ import yaml
 
 from .. import validate as v
 from ..errors import InputError
-from ..models import model_from_block
+from ..kinds import model_from_block
 from ..point import resolve_method
 from ..settings import SolverSettings
 from .grid import grid_points

@@ -1,9 +1,15 @@
 """Identity of a grid point: a hash of everything that determines its numbers.
 
 ``point_key = sha256(model spec, solver settings, physics-code hash, T, mu)`` (first 20 hex digits).
-The physics-code hash covers every Python source of the holoscan package except the scan layer and
-the command-line/config readers, so any edit to a model, the equations, the engine or the
-thermodynamics makes every point it produced stale.
+
+The physics-code hash covers the named physics parts of the package, :data:`PHYSICS`: the model
+kinds (``kinds/``), the generic numerics (``numerics/``), the bulk field equations (``bulk/``), the
+phase structure (``phases/``), the coupling parser (``expr.py``), the thermodynamic identities
+(``thermo.py``), the solver settings and their defaults (``settings.py``), the result record and its
+status rules (``result.py``) and the solve driver (``point.py``); plus every extra kind file named
+by ``HOLOSCAN_KIND_FILES``. Any edit there makes every point it produced stale. Nothing else
+changes a number (the scan layer, the command line, the config reader, the validators), so a new
+module is not physics until it lives in one of these places.
 """
 from __future__ import annotations
 
@@ -13,26 +19,40 @@ from functools import lru_cache
 from pathlib import Path
 
 _PKG = Path(__file__).resolve().parents[1]
-#: parts of the package that do not change any number (I/O, orchestration, command line)
-_NOT_PHYSICS = ("scan", "cli.py", "config.py", "__main__.py")
+#: the parts of the package whose content determines the numbers (folders and single files)
+PHYSICS = ("bulk", "kinds", "numerics", "phases", "expr.py", "point.py", "result.py", "settings.py", "thermo.py")
 
 
 def physics_files(root: Path = _PKG) -> list[Path]:
+    """The package's physics sources, sorted (every ``*.py`` of the :data:`PHYSICS` parts)."""
     out = []
-    for p in sorted(root.rglob("*.py")):
-        rel = p.relative_to(root)
-        if rel.parts[0] in _NOT_PHYSICS or "__pycache__" in rel.parts:
-            continue
-        out.append(p)
-    return out
+    for part in PHYSICS:
+        p = root / part
+        if p.is_dir():
+            out += [q for q in p.rglob("*.py") if "__pycache__" not in q.parts]
+        elif p.is_file():
+            out.append(p)
+    return sorted(out)
+
+
+def _kind_files() -> list[Path]:
+    from ..kinds import kind_files
+
+    return kind_files()
 
 
 @lru_cache(maxsize=None)
 def code_hash(root: Path = _PKG) -> str:
-    """sha256 over the physics sources (relative path + content), first 16 hex digits."""
+    """sha256 over the physics sources (relative path + content) and the extra kind files (name +
+    content), first 16 hex digits."""
     h = hashlib.sha256()
     for p in physics_files(root):
         h.update(p.relative_to(root).as_posix().encode())
+        h.update(b"\0")
+        h.update(p.read_bytes())
+        h.update(b"\0")
+    for p in _kind_files():
+        h.update(b"kind file:" + p.name.encode())
         h.update(b"\0")
         h.update(p.read_bytes())
         h.update(b"\0")

@@ -6,7 +6,7 @@ import socket
 import traceback
 
 from .. import __version__
-from ..models import model_from_block
+from ..kinds import model_from_block
 from ..phases.lines import CriticalPoint, LinePoint, locate
 from ..settings import SolverSettings
 from .chunk import check_code, read_manifest, utc_now
@@ -31,7 +31,7 @@ def run_lines(manifest_path, out_lines, out_critical, log_file: str = "", log=pr
         rows = [LinePoint(model.id, "first-order", "", float("nan"), float("nan"), status="failed",
                           message=f"internal error: {type(exc).__name__}: {exc}")]
         cps = [CriticalPoint(model.id, "", float("nan"), float("nan"), float("nan"), float("nan"), status="failed",
-                             message=f"internal error: {type(exc).__name__}: {exc}")] if model.kind == "emd" else []
+                             message=f"internal error: {type(exc).__name__}: {exc}")] if model.finds_critical_points() else []
     base = {"kind": model.kind, "lines_key": man["key"], "code_hash": man["code_hash"], "package_version": __version__,
             "host": socket.gethostname(), "start_time": start, "end_time": utc_now(), "log_file": log_file}
     out_r = [{**r.to_dict(), **base} for r in rows]

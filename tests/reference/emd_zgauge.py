@@ -124,7 +124,10 @@ def _integrate(model, Q, Y0, y0, y1, rtol):
     return sol.y[:, -1], sol.nfev
 
 
-def shoot(model: Model, phi_h: float, Q: float, delta: float = 0.01, order: int = 14, rtol: float = 1e-12,
+RTOL = 2.5e-14   # DOP853's tolerance: just above scipy's floor (2.2e-14); the read-out of P needs it
+
+
+def shoot(model: Model, phi_h: float, Q: float, delta: float = 0.01, order: int = 14, rtol: float = RTOL,
           zm_scale: float = 0.1, emax: float = 13.0, fast: bool = False, zm: float | None = None) -> dict:
     """One solve at z_h = 1 from horizon data (phi_h, Q); boundary data in the gauge chi(0) = 0."""
     if fast:

@@ -7,7 +7,8 @@ Files (relative to ``results/<scan>/``), for every model of the scan:
 
 - ``figures/<model>-phase-diagram.{png,pdf}``: dominant phase over the (mu, T) grid and the located lines;
 - ``figures/<model>-eos.{png,pdf}``: reduced equation of state of the dominant branch;
-- ``figures/<model>-condensate.{png,pdf}``: the condensate against T/T_c (kind ``charged-scalar`` only);
+- ``figures/<model>-condensate.{png,pdf}``: the condensate against T/T_c (kinds that list it in
+  their ``figures``, e.g. ``charged-scalar``);
 
 and once per scan ``figures/convergence.{png,pdf}`` (error estimate and first-law mismatch) and
 ``figures/figures.json`` (the list of files with the code hash and version of the tables, each
@@ -27,10 +28,11 @@ MANIFEST = "figures/figures.json"
 
 def model_figure_stems(model_id: str, kind: str) -> list[str]:
     """Stems (no extension) of the figures of one model, relative to ``results/<scan>/``."""
-    stems = [f"figures/{model_id}-phase-diagram", f"figures/{model_id}-eos"]
-    if kind == "charged-scalar":
-        stems.append(f"figures/{model_id}-condensate")
-    return stems
+    from ...kinds import kind_class
+
+    cls = kind_class(kind)
+    names = cls.figures if cls is not None else ("phase-diagram", "eos")
+    return [f"figures/{model_id}-{name}" for name in names]
 
 
 def figure_files(models: list[tuple[str, str]]) -> list[str]:

@@ -23,6 +23,7 @@ import pandas as pd
 import pyarrow.parquet as pq
 
 from ...errors import InputError
+from ...kinds import kind_class
 
 TABLES = ("points", "phases", "transitions", "critical_points")
 
@@ -204,13 +205,9 @@ def model_info(tables: ScanTables, model_id: str, kind: str) -> ModelInfo:
     ds = rows["d"].dropna() if "d" in rows.columns else []
     ds = [int(x) for x in ds if 1 <= x <= 64]
     d = ds[0] if ds else int(_number(block.get("d"), 4))
-    sourced = kind == "emd" and bool(block.get("source", True))
-    delta = None
-    if kind == "charged-scalar":
-        delta = _number(block.get("delta"))
-        m_sq = _number(block.get("m_sq"))
-        if delta is None and m_sq is not None and d * d / 4 + m_sq >= 0:
-            delta = d / 2 + math.sqrt(d * d / 4 + m_sq)
+    cls = kind_class(kind)
+    facts = cls.unit_facts(block, d) if cls is not None else {"conformal": True, "delta": None}
+    sourced, delta = not facts["conformal"], facts["delta"]
     if sourced:
         scale = _number(block.get("energy_scale"), 1.0)
         unit = "source units"

@@ -4,7 +4,7 @@ A patch is *resolved* when, for every function, the largest coefficient among th
 in a direction is at most ``tol`` times the function's scale on the patch (``scale = 1`` for
 functions marked absolute, such as logarithms, else the largest node value); the tail of a
 converging Chebyshev series estimates its truncation error (common practice, no source). An
-unresolved patch is split (:mod:`holoscan.atlas.lazy`) unless its tail is a noise plateau or it
+unresolved patch is split (:mod:`holoscan.numerics.lazy`) unless its tail is a noise plateau or it
 reached its minimum width; it is then kept and flagged *rough*; one with failed samples is a *hole*.
 """
 from __future__ import annotations

@@ -27,7 +27,7 @@ Near the boundary ``psi = psi_- r^{-Delta_-} + psi_+ r^{-Delta_+} + ...`` with
 ``Delta_pm = d/2 pm nu``, ``nu = sqrt(d^2/4 + m^2)``. The operator dimension ``Delta`` says which
 coefficient is the vev (``r^{-Delta}``) and which the source (the other one); the scalar is unsourced.
 
-Integration in two zones (each a batched DOP853 run, :func:`holoscan.engine.batch.dop853_batch`):
+Integration in two zones (each a batched DOP853 run, :func:`holoscan.numerics.batch.dop853_batch`):
 
 1. ``r`` from ``1 + offset`` to ``R_MID`` in the plain variables above (first-order horizon series,
    second order in ``phi``; a state error O(offset) at a regular singular point only excites the
@@ -54,7 +54,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..engine.batch import dop853_batch
+from ...numerics.batch import dop853_batch
 
 #: end of the inner zone (plain variables in r)
 R_MID = 2.0

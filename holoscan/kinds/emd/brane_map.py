@@ -1,7 +1,7 @@
 """The horizon-data map of one Einstein-Maxwell-dilaton model as an atlas, and its inversion.
 
 Coordinates ``(c0, c1)``: ``(log phi0, u)`` for a sourced scalar, ``(phi0, u)`` for an unsourced
-one (``u = Phi1/Phi1_max(phi0)``, see :mod:`holoscan.emd_solver`). Atlas functions, chosen smooth
+one (``u = Phi1/Phi1_max(phi0)``, see :mod:`holoscan.kinds.emd.shooter`). Atlas functions, chosen smooth
 and with relative accuracy where it matters::
 
     g1 = log T_hat = -log(j)/(d - Delta)   (sourced; T in units of the source)   or   g1 = j (unsourced)
@@ -19,7 +19,7 @@ import math
 
 import numpy as np
 
-from .lazy import LazyAtlas
+from ...numerics.lazy import LazyAtlas
 
 U_MAX = 0.9
 ORDER = 16
@@ -156,7 +156,7 @@ class BraneMap:
 
 
 class AtlasShooter:
-    """A shooter's interface (:class:`holoscan.emd_solver.EMDShooter`) answered from the atlas.
+    """A shooter's interface (:class:`holoscan.kinds.emd.shooter.EMDShooter`) answered from the atlas.
 
     ``observe_many`` returns the observables ``(x, j, s_hat, rho_hat)`` interpolated by the atlas
     (whatever tolerance is asked: the atlas was built at the production tolerance over 100); rows

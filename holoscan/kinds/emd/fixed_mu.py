@@ -31,16 +31,9 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.polynomial import chebyshev as C
 
-from ..emd_pressure import lobatto
-from ..engine import Counters, ShootSettings
-
-
-def _physical(o, d, D):
-    """(x, j, s_hat, rho_hat) rows -> (T, mu, s, rho) rows in units of the source."""
-    o = np.atleast_2d(o)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        T = o[:, 1] ** (-1.0 / (d - D))
-        return np.column_stack([T, o[:, 0] * T, o[:, 2] * T ** (d - 1), o[:, 3] * T ** (d - 1)])
+from ...numerics import Counters, ShootSettings
+from .pressure import lobatto
+from .shooter import physical
 
 
 def coarse_curve(sh, mu: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -51,7 +44,7 @@ def coarse_curve(sh, mu: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     d, D = sh.brane.d, sh.brane.delta
     ls, us, Ts = [], [], []
     for i, p in enumerate(g.phi0):
-        X = _physical(g.obs[i], d, D)
+        X = physical(g.obs[i], d, D)
         if mu == 0.0:
             ls.append(math.log(p))
             us.append(0.0)
@@ -115,10 +108,10 @@ def solve_u(sh, P: np.ndarray, U: np.ndarray, mu: float, ss: ShootSettings, cnt:
     d, D = sh.brane.d, sh.brane.delta
     if mu == 0.0:
         U = np.zeros(len(P))
-        return U, _physical(sh.observe_many(np.column_stack([P, U]), ss, cnt, record=True), d, D)
+        return U, physical(sh.observe_many(np.column_stack([P, U]), ss, cnt, record=True), d, D)
     scale = max(abs(mu), 1.0)
-    U, O = newton_u(sh, P, U, lambda o: (_physical(o, d, D)[:, 1] - mu) / scale, ss, cnt)
-    return U, _physical(O, d, D)
+    U, O = newton_u(sh, P, U, lambda o: (physical(o, d, D)[:, 1] - mu) / scale, ss, cnt)
+    return U, physical(O, d, D)
 
 
 @dataclass

@@ -2,7 +2,7 @@
 
 Everything is in units of the temperature (the model is conformal: the unsourced scalar leaves
 ``x = mu/T`` as the only parameter; ``mu >= 0`` here, the sign symmetry is applied by the caller).
-Shots come from :class:`holoscan.bulk.hairy_brane.HairyBrane` with horizon data ``(psi0, E)``.
+Shots come from :class:`holoscan.kinds.charged_scalar.brane.HairyBrane` with horizon data ``(psi0, E)``.
 
 Onset. On the normal brane (``psi0 = 0``: the scalar is linearised on Reissner-Nordstrom, or on
 Schwarzschild with a probe gauge field) the horizon-regular static scalar has a source coefficient
@@ -32,7 +32,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from numpy.polynomial import Chebyshev
 
-from .bulk.hairy_brane import HairyBrane, Shots
+from .brane import HairyBrane, Shots
 
 #: observables carried along (attribute names of Shots)
 OBS = ("x", "rho_hat", "s_hat", "p_hat", "O_hat")

@@ -10,8 +10,8 @@ the shots stay reliable (horizon scalars of 15 and more where the model allows i
 remaining tail ``P(phi0_end) = s T/(k + 1)`` (the integral of ``s ~ T^k`` from ``T = 0``) is a
 negligible fraction of the integral: the tail is *measured* to be small, not assumed to follow a
 power law. Its value is kept as part of the error. The pressure at a target follows on along a path
-in horizon data from its ``phi0`` on ``mu = 0`` (see :mod:`holoscan.emd_batch`, and
-:mod:`holoscan.models.emd` for the point-by-point solver).
+in horizon data from its ``phi0`` on ``mu = 0`` (see :mod:`holoscan.kinds.emd.batch`, and
+:mod:`holoscan.kinds.emd.model` for the point-by-point solver).
 
 Error evidence of the reference (absolute, source units), summed over the segments above a point:
 

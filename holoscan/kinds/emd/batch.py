@@ -1,11 +1,11 @@
 """Many targeted Einstein-Maxwell-dilaton points at once, through the atlas of the model's
-horizon-data map (:mod:`holoscan.atlas.brane_map`): the production path for kind ``emd``.
+horizon-data map (:mod:`holoscan.kinds.emd.brane_map`): the production path for kind ``emd``.
 
 Per batch of targets ``(T, mu)`` (config units):
 
 1. *Seeds* for every branch, vectorised: the triangles of the model's coarse scan whose image
    encloses the target (sourced), or the crossings of the target ``mu/T`` along the ``j = 0`` family
-   (unsourced) -- the same seeds as the point-by-point solver (:mod:`holoscan.emd_solver`).
+   (unsourced) -- the same seeds as the point-by-point solver (:mod:`holoscan.kinds.emd.shooter`).
 2. *Newton on the atlas* for all (target, seed) pairs together; roots closer than ``1e-7`` in
    horizon data are one branch.
 3. *Verification*: two direct shots per root, each batch of roots in one batched integration:
@@ -32,12 +32,11 @@ from dataclasses import replace
 
 import numpy as np
 
-from .atlas.brane_map import U_MAX, BraneMap
-from .atlas.resolution import FLAG_NAMES
-from .emd_solver import family_curve
-from .result import PointResult, Status
-
-D_BOUNDARY = 4
+from ...numerics.resolution import FLAG_NAMES
+from ...result import PointResult, Status
+from .brane_map import U_MAX, BraneMap
+from .pointwise import DERIV_ROUNDOFF, pressure_reference, solve_family, solve_sourced
+from .shooter import D_BOUNDARY, family_curve
 #: the second verification shot varies the tolerance (times RTOL_VARIATION), the horizon hand-over
 #: (offset times OFFSET_VARIATION) and is also read off READOUT_CHECK before the end of the
 #: integration. At Delta = d/2 the source's logarithmic falloff leaves a read-out truncation that
@@ -56,10 +55,6 @@ ROUNDOFF = 1e-13
 #: the one-charge closed form on a 60 x 60 (T, mu/T) grid the proxy alone fell short of the actual
 #: chi2 error by up to 3.6 times near mu/T = 1.93 (where the family turns), so it is taken 10 times
 DERIV_SAFETY = 10.0
-#: round-off of chi2 and cs2 (relative): second derivatives of data rounded at ROUNDOFF, with the
-#: differentiation gain of the atlas's orders (~100); measured against the one-charge closed form,
-#: the actual chi2 error where the truncation proxy vanishes reached 2.7e-12
-DERIV_ROUNDOFF = 1e-11
 #: an atlas row whose chi2 or cs2 estimate misses accept_error by at most this factor (all else
 #: within it) has its derivatives checked by a second method (finite differences of direct shots)
 NEAR_MISS = 10.0
@@ -153,7 +148,7 @@ class BatchSolver:
 
     def roots(self, T, mu):
         """Per target: list of (c0, c1, newton norm, iterations), or None (solve point by point)."""
-        L = getattr(self.model, "energy_scale", 1.0)
+        L = self.model.energy_scale
         x = np.abs(mu) / T
         a = np.log(T / L)
         if self.sourced:
@@ -198,7 +193,6 @@ class BatchSolver:
             for t, row in zip(ti, self._rows(T[ti], mu[ti], C, [r[2] for _, r in flat], [r[3] for _, r in flat])):
                 fields[t].append(row)
         share = (time.perf_counter() - t0) / max(len(T), 1)
-        from .models.emd import solve_family, solve_sourced  # point-by-point fallback
 
         results: list[list[PointResult]] = []
         beyond = self._beyond_reach(np.abs(mu) / T)
@@ -238,7 +232,7 @@ class BatchSolver:
                     mu=float(mu), rtol=self.ss.rtol, atol=self.ss.atol)
 
     def _no_solution(self, T, mu, share):
-        L = getattr(self.model, "energy_scale", 1.0)
+        L = self.model.energy_scale
         where = f"T/Lambda = {T / L:.6g}, mu/T = {abs(mu) / T:.6g}" if self.sourced else f"mu/T = {abs(mu) / T:.6g}"
         return PointResult(**self._common(T, mu), status=Status.NO_SOLUTION, wall_time=share,
                            message=f"no brane of this model at {where} (horizon data scanned up to "
@@ -255,10 +249,10 @@ class BatchSolver:
 
     def _rows(self, T, mu, C, norms, iters) -> list[dict]:
         """PointResult fields (all but branch and wall_time) for every root, vectorised."""
-        from .thermo import CS2_FLOOR, RHO_FLOOR, cs2_from_hessian, hessian_from_jacobians
+        from ...thermo import CS2_FLOOR, RHO_FLOOR, cs2_from_hessian, hessian_from_jacobians
 
         m, d = self.map, D_BOUNDARY
-        L = getattr(self.model, "energy_scale", 1.0)
+        L = self.model.energy_scale
         M = len(C)
         g, dg, leaf = m.evaluate(C[:, 0], C[:, 1])
         gt, dgt, _ = m.evaluate(C[:, 0], C[:, 1], truncate=2)
@@ -402,7 +396,7 @@ class BatchSolver:
         shots ten times tighter than the nodes'), Richardson-extrapolated; the bound is the
         difference from the atlas's values plus three times the change of the extrapolant made from
         2h and 4h instead. Rows (K, 2) of (chi2, cs2); NaN where a shot failed."""
-        from .thermo import CS2_FLOOR, cs2_from_hessian, hessian_from_jacobians
+        from ...thermo import CS2_FLOOR, cs2_from_hessian, hessian_from_jacobians
 
         m, K = self.map, len(T)
         h = self.settings.fd_step
@@ -451,9 +445,8 @@ class BatchSolver:
 
     # -- pressure on the atlas ----------------------------------------------------------------------
     def _P0(self):
-        from .models.emd import _pressure_reference
 
-        P0 = _pressure_reference(self.sh, self.ss)
+        P0 = pressure_reference(self.sh, self.ss)
         if isinstance(P0, Exception):
             raise ArithmeticError(str(P0))
         return P0

@@ -38,11 +38,11 @@ Backreacted densities: ``s = 2 pi r_h^(d-1) / kappa^2`` (horizon area), ``rho`` 
 flux, ``P = (T s + mu rho)/d`` (Euler relation of a conformal theory), ``epsilon = (d-1) P``.
 
 Second route, ``P_check``: the first law integrated from the onset along the condensed family at
-fixed T, ``P = P_normal(T, |mu| = x_c T) + \int rho dmu`` (:mod:`holoscan.hairy_solver`); for the
+fixed T, ``P = P_normal(T, |mu| = x_c T) + \int rho dmu`` (:mod:`holoscan.kinds.charged_scalar.solver`); for the
 normal branch the Euler relation. ``trace_anomaly`` is 0 (conformal; epsilon is set to (d-1) P).
 
 Branches returned by :meth:`ChargedScalarModel.solve`: 0 the normal brane (closed form, always),
-1 the condensed nodeless brane when ``|mu|/T > x_c`` (shooting; see :mod:`holoscan.hairy_solver`).
+1 the condensed nodeless brane when ``|mu|/T > x_c`` (shooting; see :mod:`holoscan.kinds.charged_scalar.solver`).
 Every result's ``extra`` holds ``phase`` ("normal" or "condensed"), ``condensate`` (<O>, 0.0 on the
 normal branch), ``T_c`` (the onset temperature at this |mu|, ``|mu|/x_c``) and ``mu_over_T_c`` (x_c).
 
@@ -82,16 +82,27 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .. import validate as v
-from ..bulk.hairy_brane import HairyBrane
-from ..errors import InputError
-from ..hairy_solver import Family, SolveError, Work, family_gradients, find_onset, solve_member
-from ..result import PointResult, Status
-from ..settings import SolverSettings
-from ..thermo import RHO_FLOOR, cs2_from_hessian, hessian_from_jacobians, local_stability
-from .rn import RNModel
+from ... import validate as v
+from .brane import HairyBrane
+from ...errors import InputError
+from .solver import Family, SolveError, Work, family_gradients, find_onset, solve_member
+from ...result import PointResult, Status
+from ...settings import SolverSettings
+from ...thermo import RHO_FLOOR, cs2_from_hessian, hessian_from_jacobians, local_stability
+from ..base import ModelKind
+from ..rn.model import RNModel
+from .lines import onset_line
 
 ONSET_METHOD = "zero mode, shooting"
+
+
+def _finite(x):
+    """``x`` as a finite float, else None (for values read from stored config blocks)."""
+    try:
+        x = float(x)
+    except (TypeError, ValueError):
+        return None
+    return x if math.isfinite(x) else None
 
 
 def _roots(d: int, m_sq: float) -> tuple[float, float]:
@@ -100,7 +111,7 @@ def _roots(d: int, m_sq: float) -> tuple[float, float]:
 
 
 @dataclass(frozen=True)
-class ChargedScalarModel:
+class ChargedScalarModel(ModelKind):
     """Holographic superconductor; see the module docstring for conventions and units."""
 
     id: str
@@ -115,6 +126,8 @@ class ChargedScalarModel:
     kind = "charged-scalar"
     methods = ("shooting",)
     default_method = "shooting"
+    has_onset = True
+    figures = ("phase-diagram", "eos", "condensate")
     KEYS = ("id", "kind", "d", "m_sq", "q", "delta", "probe", "kappa_sq", "e_sq")
 
     # -- construction -------------------------------------------------------------------------------
@@ -292,6 +305,23 @@ class ChargedScalarModel:
                             f"estimated error {on.error:.3g} > accept_error {settings.accept_error:g}")}
 
     # -- solve ----------------------------------------------------------------------------------------
+    # -- the kind contract's optional parts ------------------------------------------------------------
+    def has_lines(self) -> bool:
+        return True
+
+    def locate_lines(self, settings: SolverSettings, Ts, mus):
+        """The second-order line T_c(mu) (:mod:`.lines`); no critical points."""
+        return onset_line(self, settings, mus), []
+
+    @classmethod
+    def unit_facts(cls, block: dict, d: int) -> dict:
+        """Conformal; the condensate's dimension from ``delta`` (or from ``m_sq``)."""
+        delta = _finite(block.get("delta"))
+        m_sq = _finite(block.get("m_sq"))
+        if delta is None and m_sq is not None and d * d / 4 + m_sq >= 0:
+            delta = d / 2 + math.sqrt(d * d / 4 + m_sq)
+        return {"conformal": True, "delta": delta}
+
     def solve(self, T: float, mu: float, settings: SolverSettings = SolverSettings()) -> list[PointResult]:
         """Branch 0: the normal brane (always). Branch 1: the condensed brane when |mu|/T > x_c."""
         st = self._state(settings)

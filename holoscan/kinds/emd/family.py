@@ -17,8 +17,8 @@ import math
 
 import numpy as np
 
-from ..emd_solver import family_curve
-from ..engine import Counters, ShootSettings
+from .shooter import family_curve
+from ...numerics import Counters, ShootSettings
 from .fixed_mu import newton_u
 
 

@@ -23,9 +23,24 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .bulk.scalar_brane import ScalarBrane
-from .engine import Counters, ShootSettings
-from .engine.batch import dop853_batch
+from ...bulk.scalar_brane import ScalarBrane
+from ...numerics import Counters, ShootSettings
+from ...numerics.batch import dop853_batch
+
+
+#: boundary dimension of the emd kind (five bulk dimensions)
+D_BOUNDARY = 4
+
+
+def physical(o, d: int, D: float) -> np.ndarray:
+    """Dimensionless observations ``(x, j, s/T^(d-1), rho/T^(d-1))`` (one row or rows) to
+    ``(T, mu, s, rho)`` in units of the source, ``J^(1/(d - Delta)) = 1`` (same shape)."""
+    o = np.asarray(o, float)
+    rows = np.atleast_2d(o)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        T = rows[:, 1] ** (-1.0 / (d - D))
+        X = np.column_stack([T, rows[:, 0] * T, rows[:, 2] * T ** (d - 1), rows[:, 3] * T ** (d - 1)])
+    return X[0] if o.ndim == 1 else X
 
 
 @dataclass(frozen=True)

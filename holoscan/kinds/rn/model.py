@@ -21,7 +21,7 @@ of Hartnoll 2009, Class. Quant. Grav. 26, 224002)::
     epsilon = (d-1) M / (2 kappa^2),  P = M / (2 kappa^2),  M = r_h^d + mu^2 r_h^(d-2) / gamma^2
 
 Methods: ``closed-form`` (the default under ``auto``: exact to rounding and microseconds per point)
-and ``shooting`` (the numerical engine, an independent check; see :mod:`holoscan.conformal`).
+and ``shooting`` (the numerical engine, an independent check; see :mod:`holoscan.bulk.conformal`).
 """
 from __future__ import annotations
 
@@ -29,16 +29,17 @@ import math
 import time
 from dataclasses import dataclass
 
-from .. import validate as v
-from ..bulk.charged_brane import ChargedBrane, Constant
-from ..conformal import solve_unsourced
-from ..result import PointResult, Status
-from ..settings import SolverSettings
-from ..thermo import cs2_from_hessian, local_stability
+from ... import validate as v
+from ...bulk.charged_brane import ChargedBrane, Constant
+from ...bulk.conformal import solve_unsourced
+from ...result import PointResult, Status
+from ...settings import SolverSettings
+from ...thermo import cs2_from_hessian, local_stability
+from ..base import ModelKind
 
 
 @dataclass(frozen=True)
-class RNModel:
+class RNModel(ModelKind):
     """Reissner-Nordstrom-AdS_{d+1} brane. See the module docstring for conventions."""
 
     id: str

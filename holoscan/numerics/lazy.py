@@ -2,7 +2,7 @@
 
 The domain is cut into a fixed grid of root cells; a cell is sampled on its Chebyshev nodes the
 first time a point inside it is needed, and split in half along every unresolved direction (see
-:mod:`holoscan.atlas.resolution` for the resolution test), recursively. Whether a cell is split depends
+:mod:`holoscan.numerics.resolution` for the resolution test), recursively. Whether a cell is split depends
 only on its own samples, so every cell, and so every value the atlas returns at a point, is the same
 whichever points were asked for first, in whichever process: results stay a function of the model
 and the solver settings alone.

@@ -1,0 +1,11 @@
+"""Generic numerics, with no knowledge of branes or model kinds.
+
+- :mod:`.shooting`: integrate any ODE problem from a near-horizon start to an end point, counting;
+- :mod:`.batch`: DOP853 stepping a batch of columns at once (each with its own step size);
+- :mod:`.cheb`: Chebyshev nodes, DCT fits, vectorised tensor-Chebyshev evaluation with gradients;
+- :mod:`.resolution`, :mod:`.lazy`: the atlas machinery (resolution test, noise plateau, the
+  canonical subdivision built on demand).
+"""
+from .shooting import Counters, ShootSettings, Shot, ShootingProblem, shoot
+
+__all__ = ["Counters", "ShootSettings", "Shot", "ShootingProblem", "shoot"]
