@@ -1,5 +1,5 @@
-"""Many initial-value problems integrated at once: an 8th-order Dormand-Prince method (DOP853, with
-scipy's published coefficients) stepping a batch of columns, each with its own step size.
+"""Many initial-value problems integrated at once: an 8th-order Dormand-Prince method (DOP853, the
+coefficients in :mod:`.dop853_coefficients`) stepping a batch of columns, each with its own step size.
 
 For an autonomous system ``dy/dx = fun(y)`` with ``y`` of shape ``(n, B)``, every column runs from
 its own ``x0`` to its own ``x1`` under the same error control as :func:`scipy.integrate.solve_ivp`
@@ -12,7 +12,8 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.integrate._ivp import dop853_coefficients as _c
+
+from . import dop853_coefficients as _c
 
 _A = _c.A[: _c.N_STAGES, : _c.N_STAGES]
 _B = _c.B
