@@ -21,8 +21,6 @@ from dataclasses import replace
 
 from ..result import PointResult, Status
 
-FLAGS = ("stable", "metastable", "unstable", "unknown")
-
 
 def _labels(results: list[PointResult]) -> dict[int, str]:
     """Labels of the branches with a finite entropy (any status: a branch that is only short of

@@ -80,12 +80,6 @@ class RNModel(ModelKind):
         d = self.d
         return (4 * math.pi * T + math.sqrt(16 * math.pi**2 * T**2 + 4 * d * (d - 2) * mu**2 / self.gamma_sq)) / (2 * d)
 
-    def extremal_entropy(self, mu: float) -> float:
-        """Entropy density at T -> 0 (near-horizon AdS2 x R^(d-1)): r_h = sqrt((d-2)/d) |mu| / gamma."""
-        d = self.d
-        r0 = math.sqrt((d - 2) / d) * abs(mu) / math.sqrt(self.gamma_sq)
-        return 2 * math.pi * r0 ** (d - 1) / self.kappa_sq
-
     def closed_form(self, T: float, mu: float) -> PointResult:
         t0 = time.perf_counter()
         d, k2, e2, g2 = self.d, self.kappa_sq, self.e_sq, self.gamma_sq

@@ -22,7 +22,6 @@ from __future__ import annotations
 
 import json
 import multiprocessing
-import os
 import sys
 from pathlib import Path
 
@@ -68,10 +67,6 @@ def _draw(task) -> dict:
         paths = save(placeholder(heading, reason), _TABLES.root / stem)
         return {"stem": stem, "files": [str(p) for p in paths], "placeholder": reason,
                 "caption": f"Placeholder: the {heading} could not be drawn from the tables ({reason})."}
-
-
-def default_jobs() -> int:
-    return max(1, min(4, len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else os.cpu_count() or 1))
 
 
 def previous_files(root: Path) -> list[str]:
