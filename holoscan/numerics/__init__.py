@@ -2,7 +2,8 @@
 
 - :mod:`.shooting`: integrate any ODE problem from a near-horizon start to an end point, counting;
 - :mod:`.batch`: DOP853 stepping a batch of columns at once (each with its own step size);
-- :mod:`.cheb`: Chebyshev nodes, DCT fits, vectorised tensor-Chebyshev evaluation with gradients;
+- :mod:`.cheb`: Chebyshev and Chebyshev-Lobatto nodes, one-dimensional fits and their tails, DCT
+  fits and vectorised tensor-Chebyshev evaluation with gradients;
 - :mod:`.resolution`, :mod:`.lazy`: the atlas machinery (resolution test, noise plateau, the
   canonical subdivision built on demand).
 """

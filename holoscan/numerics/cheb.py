@@ -1,6 +1,14 @@
-"""Tensor-product Chebyshev interpolation on rectangles ("patches"), vectorised over many points.
+"""Chebyshev nodes and interpolants: one-dimensional series on Lobatto nodes, and tensor-product
+interpolation on rectangles ("patches"), vectorised over many points.
 
-A patch covers ``[a0, b0] x [a1, b1]`` in two coordinates and holds, for each of ``m`` functions, the
+One dimension. :func:`lobatto` gives the Chebyshev-Lobatto points ``-cos(pi k / (n - 1))`` on
+``[-1, 1]`` (both ends included, ascending); :func:`lobatto_fit` the coefficients of the series of
+degree ``n - 1`` through values there; :func:`interpolant` the series through values at any ``n``
+distinct points of ``[a, b]`` as a :class:`numpy.polynomial.Chebyshev` on that domain; :func:`tail`
+the size of a series' last coefficients relative to its largest (its truncation error, once the
+series converges). Coefficients are in the basis ``T_k`` of the interval mapped to ``[-1, 1]``.
+
+Patches. A patch covers ``[a0, b0] x [a1, b1]`` in two coordinates and holds, for each of ``m`` functions, the
 ``n x n`` coefficients of ``sum_ij c_ij T_i(xi) T_j(eta)``, where ``xi, eta`` in ``[-1, 1]`` are the
 patch-local coordinates. The interpolation nodes are the Chebyshev points of the first kind (the
 roots of ``T_n``), so no node lies on a patch edge (a coordinate axis such as ``u = 0`` is never
@@ -9,7 +17,32 @@ sampled). Coefficients follow from node values by the discrete cosine transform.
 from __future__ import annotations
 
 import numpy as np
+from numpy.polynomial import Chebyshev
 from numpy.polynomial import chebyshev as C
+
+
+def lobatto(n: int) -> np.ndarray:
+    """Chebyshev-Lobatto points (extrema of ``T_(n-1)``, ends included) on [-1, 1], ascending; n >= 2."""
+    return -np.cos(np.pi * np.arange(n) / (n - 1))
+
+
+def lobatto_fit(values) -> np.ndarray:
+    """Coefficients (n,) of the Chebyshev series of degree n - 1 through ``values`` (n,) at :func:`lobatto` (n)."""
+    values = np.asarray(values)
+    n = len(values)
+    return C.chebfit(lobatto(n), values, n - 1)
+
+
+def interpolant(x, values, a: float, b: float) -> Chebyshev:
+    """The Chebyshev series of degree ``len(x) - 1`` through ``(x, values)``, on the domain [a, b]."""
+    return Chebyshev.fit(x, values, deg=len(x) - 1, domain=[a, b])
+
+
+def tail(coef, k: int = 3) -> float:
+    """Largest of the last ``k`` coefficients of a series relative to its largest coefficient (in
+    absolute value; the denominator is floored at 1e-300)."""
+    c = np.abs(np.asarray(coef))
+    return float(max(c[-1:-k - 1:-1]) / max(np.max(c), 1e-300))
 
 
 def nodes(n: int) -> np.ndarray:

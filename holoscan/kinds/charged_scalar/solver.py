@@ -32,6 +32,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from numpy.polynomial import Chebyshev
 
+from ...numerics.cheb import interpolant, lobatto, tail
 from .brane import HairyBrane, Shots
 
 #: observables carried along (attribute names of Shots)
@@ -132,19 +133,6 @@ class Panel:
     tail: float = 0.0           # size of the trailing coefficients (resolution)
 
 
-def _cheb_nodes(a: float, b: float, n: int = DEGREE) -> np.ndarray:
-    return 0.5 * (a + b) - 0.5 * (b - a) * np.cos(np.pi * np.arange(n + 1) / n)
-
-
-def _fit(s, vals, a, b) -> Chebyshev:
-    return Chebyshev.fit(s, vals, deg=len(s) - 1, domain=[a, b])
-
-
-def _tail(p: Chebyshev) -> float:
-    c = np.abs(p.coef)
-    return float(max(c[-1], c[-2], c[-3]) / max(np.max(c), 1e-300))
-
-
 class Family:
     """The condensed family of one brane at one tolerance and horizon offset (built lazily)."""
 
@@ -184,7 +172,7 @@ class Family:
         return E, fin
 
     def _make_panel(self, a: float, b: float, E_guess) -> Panel:
-        s = _cheb_nodes(a, b)
+        s = 0.5 * (a + b) + 0.5 * (b - a) * lobatto(DEGREE + 1)
         E = np.asarray(E_guess(s), float)
         start = 0
         if a == 0.0:  # the onset itself: psi0 = 0 is the normal brane at x_c
@@ -202,9 +190,9 @@ class Family:
             E[0] = self.onset.E_c
         p = Panel(a, b, s, E, obs)
         for k in OBS:
-            p.poly[k] = _fit(s, obs[k], a, b)
-        p.poly["logE"] = _fit(s, np.log(E), a, b)
-        p.tail = max(_tail(p.poly["x"]), _tail(p.poly["rho_hat"]))
+            p.poly[k] = interpolant(s, obs[k], a, b)
+        p.poly["logE"] = interpolant(s, np.log(E), a, b)
+        p.tail = max(tail(p.poly["x"].coef), tail(p.poly["rho_hat"].coef))
         return p
 
     def _pilot_width(self) -> float:

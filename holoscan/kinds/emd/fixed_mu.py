@@ -32,7 +32,7 @@ import numpy as np
 from numpy.polynomial import chebyshev as C
 
 from ...numerics import Counters, ShootSettings
-from .pressure import lobatto
+from ...numerics.cheb import lobatto, lobatto_fit
 from .shooter import physical
 
 
@@ -220,9 +220,9 @@ def sample(sh, mu: float, la: float, lb: float, n: int, ss: ShootSettings, cnt: 
     if not np.all(np.isfinite(X)):
         bad = int(np.sum(~np.isfinite(X[:, 0])))
         raise ArithmeticError(f"{bad} of {n} curve nodes at mu = {mu:.6g} did not converge")
-    fine = Curve(mu, la, lb, *(C.chebfit(z, X[:, k], n - 1) for k in (0, 2, 3)))
-    zs = z[::2]
-    half = Curve(mu, la, lb, *(C.chebfit(zs, X[::2, k], len(zs) - 1) for k in (0, 2, 3)))
+    fine = Curve(mu, la, lb, *(lobatto_fit(X[:, k]) for k in (0, 2, 3)))
+    # every other node of an odd Lobatto set is the Lobatto set of (n + 1) / 2 points
+    half = Curve(mu, la, lb, *(lobatto_fit(X[::2, k]) for k in (0, 2, 3)))
     return fine, half
 
 

@@ -15,10 +15,11 @@ import time
 import numpy as np
 
 from ...bulk.scalar_brane import ScalarBrane
+from ...numerics.cheb import lobatto
 from ...result import PointResult, Status
 from ...settings import SolverSettings
 from ...thermo import CS2_FLOOR, RHO_FLOOR, cs2_from_hessian, hessian_from_jacobians, local_stability
-from .pressure import ZeroDensityPressure, lobatto, path_integral
+from .pressure import ZeroDensityPressure, path_integral
 from .shooter import D_BOUNDARY, Counters, EMDShooter, find_branches, physical
 
 #: horizon-scalar range and nodes of an unsourced family's coarse scan (and atlas)

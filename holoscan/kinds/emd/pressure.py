@@ -29,21 +29,14 @@ import math
 import numpy as np
 from numpy.polynomial import chebyshev as C
 
-
-def lobatto(n: int) -> np.ndarray:
-    """Chebyshev-Lobatto nodes on [-1, 1] (ascending)."""
-    return -np.cos(np.pi * np.arange(n) / (n - 1))
-
-
-def _fit(values: np.ndarray, n: int) -> np.ndarray:
-    return C.chebfit(lobatto(n), values, n - 1)
+from ...numerics.cheb import lobatto, lobatto_fit
 
 
 def path_integral(T, mu, s, rho, n: int) -> float:
     """Integral of ``s dT + rho dmu`` along a path sampled at ``n`` Lobatto nodes (end - start)."""
-    cT, cmu = _fit(np.asarray(T), n), _fit(np.asarray(mu), n)
+    cT, cmu = lobatto_fit(T), lobatto_fit(mu)
     dT, dmu = C.chebval(lobatto(n), C.chebder(cT)), C.chebval(lobatto(n), C.chebder(cmu))
-    g = _fit(np.asarray(s) * dT + np.asarray(rho) * dmu, n)
+    g = lobatto_fit(np.asarray(s) * dT + np.asarray(rho) * dmu)
     G = C.chebint(g)
     return float(C.chebval(1.0, G) - C.chebval(-1.0, G))
 
@@ -70,7 +63,7 @@ class _Segment:
         self.resolution = abs(self.integral - float(C.chebval(1.0, G9)))
         self.handover = abs(float(C.chebval(1.0, G9v)) - float(C.chebval(1.0, G9)))
         lT, ls = np.log(Ts[:, 0]), np.log(Ts[:, 1])
-        cT, cs = _fit(lT, n), _fit(ls, n)
+        cT, cs = lobatto_fit(lT), lobatto_fit(ls)
         dT_end = float(C.chebval(1.0, C.chebder(cT)))
         ds_end = float(C.chebval(1.0, C.chebder(cs)))
         self.T_end, self.s_end = float(Ts[-1, 0]), float(Ts[-1, 1])
@@ -82,9 +75,9 @@ class _Segment:
     def _antiderivative(Ts, n):
         """Chebyshev antiderivative (zero at z = -1) of s dT/dz, from log T and log s fits."""
         lT, ls = np.log(Ts[:, 0]), np.log(Ts[:, 1])
-        cT = _fit(lT, n)
+        cT = lobatto_fit(lT)
         dlT = C.chebval(lobatto(n), C.chebder(cT))
-        g = _fit(np.exp(ls + lT) * dlT, n)
+        g = lobatto_fit(np.exp(ls + lT) * dlT)
         return C.chebint(g, lbnd=-1.0)
 
     def partial(self, tau: float) -> float:
