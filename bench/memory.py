@@ -33,7 +33,7 @@ this checkout first on ``PYTHONPATH``):
    Euler relation, a few per cent of ``not converged`` and ``failed`` rows with null observables,
    per-row messages, JSON ``extra``, timestamps), built with exactly the Arrow schema of
    :func:`holoscan.scan.tables.rows_to_table` (checked) and sealed with
-   :func:`holoscan.scan.store.seal_segment` as a chunk job does (written to a temporary name,
+   :func:`holoscan.scan.store.write_segment` as a chunk job does (written to a temporary name,
    fsynced, seal first, then renamed). The output's row count is read from its Parquet metadata.
    The data are invented and only serve to size the memory; they are not physics.
 
@@ -84,7 +84,7 @@ from holoscan.config import read_yaml  # noqa: E402
 from holoscan.scan.identity import code_hash  # noqa: E402
 from holoscan.scan.snakemake_glue import plan_scan  # noqa: E402
 from holoscan.scan.plan import write_plan_files  # noqa: E402
-from holoscan.scan.store import seal_segment  # noqa: E402
+from holoscan.scan.store import write_segment  # noqa: E402
 from holoscan.scan.tables import COLUMNS, rows_to_table, schema  # noqa: E402
 
 CONFIG = REPO / "config" / "config.yaml"
@@ -310,16 +310,6 @@ def synthetic_segment(manifest: dict, rng: np.random.Generator, host: str, t_bas
     return pa.Table.from_arrays(arrays, schema=schema())
 
 
-def write_sealed(table: pa.Table, seg: Path, keys: list[str], code: str) -> None:
-    """Write a segment exactly as :func:`holoscan.scan.chunk.run_chunk` does."""
-    seg.parent.mkdir(parents=True, exist_ok=True)
-    tmp = seg.with_name(f".{seg.name}.tmp-{os.getpid()}")
-    pq.write_table(table, tmp)
-    with open(tmp, "rb+") as fh:
-        os.fsync(fh.fileno())
-    seal_segment(tmp, seg, keys, code)
-
-
 def measure_assembly(work: Path, n_rows: int, n_segments: int, seed: int) -> dict:
     folder = work / "assemble"
     folder.mkdir()
@@ -342,7 +332,7 @@ def measure_assembly(work: Path, n_rows: int, n_segments: int, seed: int) -> dic
         table = synthetic_segment(manifest, rng, host, t_base + timedelta(minutes=i))
         if not table.schema.equals(reference, check_metadata=True):
             raise RuntimeError("synthetic segment schema differs from holoscan.scan.tables.rows_to_table's")
-        write_sealed(table, plan.segment(cid), [p[3] for p in manifest["points"]], manifest["code_hash"])
+        write_segment(table, plan.segment(cid), [p[3] for p in manifest["points"]], manifest["code_hash"])
         seg_bytes += plan.segment(cid).stat().st_size
     t_gen = time.perf_counter() - t0
     root = Path("results") / plan.scan  # relative, as the workflow's rule passes them

@@ -2,14 +2,11 @@
 from __future__ import annotations
 
 import json
-import os
 import socket
 import time
 import traceback
 from datetime import datetime, timezone
 from pathlib import Path
-
-import pyarrow.parquet as pq
 
 from .. import __version__
 from ..kinds import model_from_block
@@ -17,7 +14,7 @@ from ..point import solve_points
 from ..result import Status
 from ..settings import SolverSettings
 from .identity import code_hash
-from .store import seal_segment, text_hash
+from .store import text_hash, write_segment
 from .tables import rows_to_table
 
 
@@ -116,11 +113,5 @@ def run_chunk(manifest_path, out_path, log_file: str = "", log=print) -> int:
     """Solve the manifest and write the sealed segment ``out_path``. Returns the number of rows."""
     manifest = read_manifest(manifest_path)
     rows = solve_manifest(manifest, log_file=log_file, log=log)
-    out = Path(out_path)
-    out.parent.mkdir(parents=True, exist_ok=True)
-    tmp = out.with_name(f".{out.name}.tmp-{os.getpid()}")
-    pq.write_table(rows_to_table(rows), tmp)
-    with open(tmp, "rb+") as fh:  # make the bytes durable before the rename publishes them
-        os.fsync(fh.fileno())
-    seal_segment(tmp, out, [p[3] for p in manifest["points"]], manifest["code_hash"])
+    write_segment(rows_to_table(rows), Path(out_path), [p[3] for p in manifest["points"]], manifest["code_hash"])
     return len(rows)

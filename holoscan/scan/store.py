@@ -14,6 +14,8 @@ import hashlib
 import json
 import os
 import shutil
+from collections.abc import Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -31,34 +33,57 @@ def text_hash(text: str) -> str:
     return hashlib.sha256(text.encode()).hexdigest()[:12]
 
 
-def atomic_write_bytes(path: Path, data: bytes, durable: bool = True) -> None:
-    """Write to a temporary name in the same folder, then rename; ``durable`` fsyncs first."""
+def temporary_name(path: Path) -> Path:
+    """The hidden name ``path`` is written under before it is renamed into place (same folder,
+    so the rename is atomic; the process id keeps concurrent writers apart)."""
+    path = Path(path)
+    return path.with_name(f".{path.name}.{os.getpid()}.tmp")
+
+
+def _fsync(path: Path) -> None:
+    with open(path, "rb+") as fh:
+        os.fsync(fh.fileno())
+
+
+@contextmanager
+def atomic_path(path: Path, durable: bool = True) -> Iterator[Path]:
+    """The one way files are written atomically: the body writes the yielded temporary path, which
+    is then (fsynced when ``durable``) renamed to ``path``. Should the body raise, the temporary
+    file is removed and ``path`` is left as it was. The folder is created if missing."""
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
-    tmp = path.with_name(f".{path.name}.tmp-{os.getpid()}")
-    with open(tmp, "wb") as fh:
-        fh.write(data)
-        fh.flush()
+    tmp = temporary_name(path)
+    try:
+        yield tmp
         if durable:
-            os.fsync(fh.fileno())
-    os.replace(tmp, path)
+            _fsync(tmp)
+        os.replace(tmp, path)
+    except BaseException:
+        tmp.unlink(missing_ok=True)
+        raise
+
+
+def atomic_write_bytes(path: Path, data: bytes, durable: bool = True) -> None:
+    """Write ``data`` to ``path`` atomically (:func:`atomic_path`)."""
+    with atomic_path(path, durable) as tmp:
+        tmp.write_bytes(data)
 
 
 def atomic_write_text(path: Path, text: str, durable: bool = True) -> None:
+    """Write ``text`` (UTF-8) to ``path`` atomically (:func:`atomic_path`)."""
     atomic_write_bytes(path, text.encode(), durable)
 
 
-def atomic_write_table(table, path: Path) -> None:
-    """Write an Arrow table as Parquet to a temporary name in the same folder, fsync, then rename."""
+def _write_parquet(table, path: Path) -> None:
     import pyarrow.parquet as pq
 
-    path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    tmp = path.with_name(f".{path.name}.tmp-{os.getpid()}")
-    pq.write_table(table, tmp)
-    with open(tmp, "rb+") as fh:
-        os.fsync(fh.fileno())
-    os.replace(tmp, path)
+    pq.write_table(table, path)
+
+
+def atomic_write_table(table, path: Path) -> None:
+    """Write an Arrow table as Parquet to ``path`` atomically and durably (:func:`atomic_path`)."""
+    with atomic_path(path) as tmp:
+        _write_parquet(table, tmp)
 
 
 def seal_path(segment: Path) -> Path:
@@ -71,6 +96,21 @@ def seal_segment(tmp_segment: Path, segment: Path, keys: list[str], code_hash: s
             "chunk": Path(segment).stem}
     atomic_write_text(seal_path(segment), json.dumps(seal))
     os.replace(tmp_segment, segment)
+
+
+def write_segment(table, segment: Path, keys: list[str], code_hash: str) -> None:
+    """Write an Arrow table as the sealed segment ``segment``: Parquet under its temporary name,
+    fsynced, then sealed and renamed into place (:func:`seal_segment`)."""
+    segment = Path(segment)
+    segment.parent.mkdir(parents=True, exist_ok=True)
+    tmp = temporary_name(segment)
+    try:
+        _write_parquet(table, tmp)
+        _fsync(tmp)
+        seal_segment(tmp, segment, keys, code_hash)
+    except BaseException:
+        tmp.unlink(missing_ok=True)
+        raise
 
 
 @dataclass

@@ -25,6 +25,7 @@ import multiprocessing
 import sys
 from pathlib import Path
 
+from ..store import atomic_write_text
 from . import FORMATS, MANIFEST, model_figure_stems
 from .data import ScanTables, load_scan
 
@@ -125,9 +126,7 @@ def write_all(results_dir, models=None, jobs: int = 1) -> list[str]:
                 "placeholders": {d["stem"]: d["placeholder"] for d in done if d["placeholder"]},
                 "removed": removed}
     path = root / MANIFEST
-    tmp = path.with_name(path.name + ".tmp")
-    tmp.write_text(json.dumps(manifest, indent=2, sort_keys=True) + "\n")
-    tmp.replace(path)
+    atomic_write_text(path, json.dumps(manifest, indent=2, sort_keys=True) + "\n", durable=False)
     for d in done:
         if d["placeholder"]:
             print(f"holoscan: {d['stem']} is a placeholder: {d['placeholder']}", file=sys.stderr)

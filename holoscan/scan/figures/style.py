@@ -10,6 +10,8 @@ from pathlib import Path
 
 import matplotlib
 
+from ..store import atomic_path
+
 matplotlib.use("Agg")  # files only, never a display
 
 import matplotlib.pyplot as plt  # noqa: E402
@@ -93,21 +95,16 @@ def title(fig, text: str) -> None:
 
 
 def save(fig, stem: Path) -> list[Path]:
-    """Write ``stem.png`` and ``stem.pdf`` (reproducible metadata) and close the figure. A failure
-    leaves no temporary file behind (the figure is closed and the error raised)."""
-    stem.parent.mkdir(parents=True, exist_ok=True)
+    """Write ``stem.png`` and ``stem.pdf`` (reproducible metadata), each atomically
+    (:func:`holoscan.scan.store.atomic_path`), and close the figure. A failure leaves no temporary
+    file behind (the figure is closed and the error raised)."""
     out = []
     try:
         for ext, meta in (("png", PNG_METADATA), ("pdf", PDF_METADATA)):
             path = stem.with_name(stem.name + f".{ext}")
-            tmp = path.with_name(path.name + ".tmp")
-            fig.savefig(tmp, format=ext, metadata=meta)
-            tmp.replace(path)
+            with atomic_path(path, durable=False) as tmp:
+                fig.savefig(tmp, format=ext, metadata=meta)
             out.append(path)
-    except BaseException:
-        for ext in ("png", "pdf"):
-            stem.with_name(stem.name + f".{ext}.tmp").unlink(missing_ok=True)
-        raise
     finally:
         plt.close(fig)
     return out
