@@ -22,7 +22,7 @@ thread of the process counts) for
 (b) holoscan's production path: ``model.solve_many(targets, settings)`` with the ``emd`` kind's
     default method (the atlas of the horizon-data map, :mod:`holoscan.kinds.emd.batch`) on ALL targets of
     the grid in one call, cold: both per-process caches (``holoscan.kinds.emd.batch._SOLVERS`` and
-    ``holoscan.kinds.emd.model._SHOOTERS``) are cleared before every repeat, so the per-model setup
+    ``holoscan.kinds.emd.pointwise._SHOOTERS``) are cleared before every repeat, so the per-model setup
     (coarse scan, atlas patches) is paid inside every timed repeat. A target counts as converged
     when every branch it returns is ``ok``. A cold call on one target and a warm repeat of the
     whole grid are timed on separate lines (not in the ratio) to show the setup and marginal cost.
@@ -72,7 +72,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "tests"))
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 import holoscan.kinds.emd.batch as emd_batch  # noqa: E402
-import holoscan.kinds.emd.model as emd_models  # noqa: E402
+import holoscan.kinds.emd.pointwise as emd_pointwise  # noqa: E402
 from holoscan.point import solve_points  # noqa: E402
 from holoscan import SolverSettings, model_from_block  # noqa: E402
 from holoscan.point import resolve_method  # noqa: E402
@@ -271,7 +271,7 @@ def run_reference(ref, targets):
 # == (b) production ==================================================================================
 def cold():
     emd_batch._SOLVERS.clear()
-    emd_models._SHOOTERS.clear()
+    emd_pointwise._SHOOTERS.clear()
 
 
 def run_production(model, settings, targets, clear=True):

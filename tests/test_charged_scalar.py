@@ -13,7 +13,7 @@ from scipy.linalg import eig
 
 from holoscan import InputError, RNModel, SolverSettings, Status, model_from_block, solve_point
 from holoscan.kinds.charged_scalar.brane import HairyBrane
-from holoscan.kinds import charged_scalar
+from holoscan.kinds.charged_scalar import model as charged_scalar
 
 DEFAULT = SolverSettings()
 TIGHT = SolverSettings(rtol=1e-12, horizon_offset=1e-9)

@@ -83,15 +83,16 @@ from dataclasses import dataclass
 import numpy as np
 
 from ... import validate as v
-from .brane import HairyBrane
 from ...errors import InputError
-from .solver import Family, SolveError, Work, family_gradients, find_onset, solve_member
+from ...numerics.memo import Memo
 from ...result import PointResult, Status
 from ...settings import SolverSettings
 from ...thermo import RHO_FLOOR, cs2_from_hessian, hessian_from_jacobians, local_stability
 from ..base import ModelKind
 from ..rn.model import RNModel
+from .brane import HairyBrane
 from .lines import onset_line
+from .solver import Family, SolveError, Work, family_gradients, find_onset, solve_member
 
 ONSET_METHOD = "zero mode, shooting"
 
@@ -202,9 +203,10 @@ class ChargedScalarModel(ModelKind):
 
     # -- per-process cache --------------------------------------------------------------------------
     def _state(self, settings: SolverSettings) -> dict:
-        key = (tuple((k, val) for k, val in self.spec().items() if k != "id"), settings.rtol, settings.horizon_offset)
-        st = _CACHE.get(key)
-        if st is None:
+        """Brane, onset (or the exception that stopped its search) and condensed family, built once
+        per physics (spec without id), tolerance and horizon offset in a process (:data:`_CACHE`)."""
+
+        def build() -> dict:
             brane = self.brane()
             st = {"brane": brane}
             try:
@@ -213,8 +215,10 @@ class ChargedScalarModel(ModelKind):
                 st["onset"] = SolveError(f"onset search failed: {exc}")
             if not isinstance(st["onset"], Exception) and math.isfinite(st["onset"].x_c):
                 st["family"] = Family(brane, st["onset"], settings.rtol, settings.horizon_offset)
-            _CACHE[key] = st
-        return st
+            return st
+
+        key = (tuple((k, val) for k, val in self.spec().items() if k != "id"), settings.rtol, settings.horizon_offset)
+        return _CACHE.get(key, build)
 
     # -- normal branch ------------------------------------------------------------------------------
     def _normal(self, T: float, mu: float) -> dict:
@@ -471,5 +475,6 @@ SAFETY = 2.0
 #: relative rounding floor
 ROUNDING = 1e-14
 
-#: per-process cache: (physics spec without id, rtol, horizon_offset) -> onset, family, brane
-_CACHE: dict = {}
+#: per-process cache (:mod:`holoscan.numerics.memo`): (physics spec without id, rtol, horizon_offset)
+#: -> brane, onset, family
+_CACHE = Memo("charged-scalar onsets and families", maxsize=32)

@@ -32,11 +32,13 @@ from dataclasses import replace
 
 import numpy as np
 
+from ...numerics.memo import Memo
 from ...numerics.resolution import FLAG_NAMES
 from ...result import PointResult, Status
 from .brane_map import U_MAX, BraneMap
 from .pointwise import DERIV_ROUNDOFF, pressure_reference, solve_family, solve_sourced
 from .shooter import D_BOUNDARY, family_curve
+
 #: the second verification shot varies the tolerance (times RTOL_VARIATION), the horizon hand-over
 #: (offset times OFFSET_VARIATION) and is also read off READOUT_CHECK before the end of the
 #: integration. At Delta = d/2 the source's logarithmic falloff leaves a read-out truncation that
@@ -485,15 +487,14 @@ class BatchSolver:
         return P1, Pref + up + across, P0err, np.abs(base) + np.abs(up1)
 
 
-_SOLVERS: dict = {}
+#: batch solvers by model spec (id included) and solver settings; see :mod:`holoscan.numerics.memo`
+_SOLVERS = Memo("emd batch solvers", maxsize=32)
 
 
 def batch_solver(model, sh, settings) -> BatchSolver:
-    """One batch solver (and so one atlas) per model, solver settings and process."""
-    key = (tuple(sorted(model.spec().items())), settings)
-    if key not in _SOLVERS:
-        _SOLVERS[key] = BatchSolver(model, sh, settings)
-    return _SOLVERS[key]
+    """One batch solver (and so one atlas) per model, solver settings and process; ``sh`` is the
+    model's shooter (:func:`.pointwise.shooter_for`)."""
+    return _SOLVERS.get((tuple(sorted(model.spec().items())), settings), lambda: BatchSolver(model, sh, settings))
 
 
 __all__ = ["BatchSolver", "batch_solver"]

@@ -24,7 +24,6 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from functools import lru_cache
 
 import numpy as np
 
@@ -33,6 +32,7 @@ from ...bulk.charged_brane import ChargedBrane
 from ...bulk.conformal import solve_unsourced
 from ...errors import InputError
 from ...expr import ParsedCoupling
+from ...numerics.memo import Memo
 from ...result import PointResult
 from ...settings import SolverSettings
 from ..base import ModelKind
@@ -41,11 +41,13 @@ from .lines import locate_emd_lines
 from .pointwise import shooter_for, solve_family, solve_sourced
 from .shooter import D_BOUNDARY
 
+#: parsed couplings by (text, config key); see :mod:`holoscan.numerics.memo`
+_COUPLINGS = Memo("emd parsed couplings", maxsize=256)
 
-@lru_cache(maxsize=256)
+
 def _parsed(text: str, key: str) -> ParsedCoupling:
     """Parse (and differentiate) a coupling once per process, not once per point."""
-    return ParsedCoupling(text, key)
+    return _COUPLINGS.get((text, key), lambda: ParsedCoupling(text, key))
 
 
 @dataclass(frozen=True)

@@ -16,6 +16,7 @@ import numpy as np
 
 from ...bulk.scalar_brane import ScalarBrane
 from ...numerics.cheb import lobatto
+from ...numerics.memo import Memo
 from ...result import PointResult, Status
 from ...settings import SolverSettings
 from ...thermo import CS2_FLOOR, RHO_FLOOR, cs2_from_hessian, hessian_from_jacobians, local_stability
@@ -31,22 +32,23 @@ UNSOURCED_N_PHI0 = 49
 DERIV_ROUNDOFF = 1e-11
 
 
-_SHOOTERS: dict = {}
+#: shooters by model spec (id included); see :mod:`holoscan.numerics.memo`
+_SHOOTERS = Memo("emd shooters", maxsize=32)
 
 
 def shooter_for(model, V, f) -> EMDShooter:
-    """One shooter (with its coarse scan of horizon data) per model and process."""
-    key = tuple(sorted(model.spec().items()))
-    if key not in _SHOOTERS:
+    """One shooter (with its coarse scan of horizon data) per model and process; ``V``, ``f`` are
+    the model's parsed couplings."""
+
+    def build() -> EMDShooter:
         brane = ScalarBrane(D_BOUNDARY, V, f, delta=model.delta)
         if model.source:
-            _SHOOTERS[key] = EMDShooter(brane, model.kappa_sq, sourced=True)
-        else:
-            # an unsourced family reaches mu/T -> 0 again only at large |phi0| (the one-charge black
-            # hole's unstable branch has phi0 = -7.9 at mu/T = 0.05): scan further out
-            _SHOOTERS[key] = EMDShooter(brane, model.kappa_sq, sourced=False, phi0_max=UNSOURCED_PHI0_MAX,
-                                        n_phi0=UNSOURCED_N_PHI0)
-    return _SHOOTERS[key]
+            return EMDShooter(brane, model.kappa_sq, sourced=True)
+        # an unsourced family reaches mu/T -> 0 again only at large |phi0| (the one-charge black
+        # hole's unstable branch has phi0 = -7.9 at mu/T = 0.05): scan further out
+        return EMDShooter(brane, model.kappa_sq, sourced=False, phi0_max=UNSOURCED_PHI0_MAX, n_phi0=UNSOURCED_N_PHI0)
+
+    return _SHOOTERS.get(tuple(sorted(model.spec().items())), build)
 
 
 def _gradients(sh: EMDShooter, q, steps, ss, cnt, transform=None):
