@@ -1,4 +1,5 @@
-"""Validators for user input, in one place. Each raises :class:`~holoscan.errors.InputError`."""
+"""Validators for user input, in one place. Each raises :class:`~holoscan.errors.InputError`,
+except :func:`finite_or`, the lenient reader of values that were validated when they were stored."""
 from __future__ import annotations
 
 import math
@@ -29,6 +30,16 @@ def number(value, key: str, *, positive: bool = False, nonneg: bool = False) -> 
     if nonneg and not x >= 0:
         raise InputError(key, value, "must be >= 0")
     return x
+
+
+def finite_or(value, default=None):
+    """``value`` as a finite float, else ``default`` (never raises for a value that ``float`` does
+    not take, NaN or an infinity): for reading values back from stored config blocks."""
+    try:
+        x = float(value)
+    except (TypeError, ValueError):
+        return default
+    return x if math.isfinite(x) else default
 
 
 def integer(value, key: str, *, minimum: int | None = None, maximum: int | None = None) -> int:

@@ -97,15 +97,6 @@ from .solver import Family, SolveError, Work, family_gradients, find_onset, solv
 ONSET_METHOD = "zero mode, shooting"
 
 
-def _finite(x):
-    """``x`` as a finite float, else None (for values read from stored config blocks)."""
-    try:
-        x = float(x)
-    except (TypeError, ValueError):
-        return None
-    return x if math.isfinite(x) else None
-
-
 def _roots(d: int, m_sq: float) -> tuple[float, float]:
     nu = math.sqrt(d * d / 4.0 + m_sq)
     return d / 2.0 - nu, d / 2.0 + nu
@@ -320,8 +311,8 @@ class ChargedScalarModel(ModelKind):
     @classmethod
     def unit_facts(cls, block: dict, d: int) -> dict:
         """Conformal; the condensate's dimension from ``delta`` (or from ``m_sq``)."""
-        delta = _finite(block.get("delta"))
-        m_sq = _finite(block.get("m_sq"))
+        delta = v.finite_or(block.get("delta"))
+        m_sq = v.finite_or(block.get("m_sq"))
         if delta is None and m_sq is not None and d * d / 4 + m_sq >= 0:
             delta = d / 2 + math.sqrt(d * d / 4 + m_sq)
         return {"conformal": True, "delta": delta}

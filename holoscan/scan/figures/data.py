@@ -24,6 +24,7 @@ import pyarrow.parquet as pq
 
 from ...errors import InputError
 from ...kinds import kind_class
+from ...validate import finite_or
 
 TABLES = ("points", "phases", "transitions", "critical_points")
 
@@ -190,26 +191,17 @@ class ModelInfo:
         return f"{self.model_id} ({self.kind}, d = {self.d})"
 
 
-def _number(x, default=None):
-    """``x`` as a finite float, else ``default``."""
-    try:
-        x = float(x)
-    except (TypeError, ValueError):
-        return default
-    return x if math.isfinite(x) else default
-
-
 def model_info(tables: ScanTables, model_id: str, kind: str) -> ModelInfo:
     block = tables.block(model_id)
     rows = tables.rows("points", model_id)
     ds = rows["d"].dropna() if "d" in rows.columns else []
     ds = [int(x) for x in ds if 1 <= x <= 64]
-    d = ds[0] if ds else int(_number(block.get("d"), 4))
+    d = ds[0] if ds else int(finite_or(block.get("d"), 4))
     cls = kind_class(kind)
     facts = cls.unit_facts(block, d) if cls is not None else {"conformal": True, "delta": None}
     sourced, delta = not facts["conformal"], facts["delta"]
     if sourced:
-        scale = _number(block.get("energy_scale"), 1.0)
+        scale = finite_or(block.get("energy_scale"), 1.0)
         unit = "source units"
         note = (r"T, $\mu$ in units of the source scale $J^{1/(4-\Delta)}$"
                 + ("" if scale == 1.0 else f" (= {scale:g} E)"))
