@@ -17,9 +17,10 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "tests"))
 
-from holoscan import model_from_block, solve_point  # noqa: E402
-from holoscan.kinds.emd.pointwise import shooter_for  # noqa: E402
-from test_emd_onecharge import ONE_CHARGE, closed  # noqa: E402
+from test_emd_onecharge import ONE_CHARGE, closed
+
+from holoscan import model_from_block, solve_point
+from holoscan.kinds.emd.pointwise import shooter_for
 
 
 def main():

@@ -71,13 +71,13 @@ from scipy.optimize import root
 sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "tests"))
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-import holoscan.kinds.emd.batch as emd_batch  # noqa: E402
-import holoscan.kinds.emd.pointwise as emd_pointwise  # noqa: E402
-from holoscan.point import solve_points  # noqa: E402
-from holoscan import SolverSettings, model_from_block  # noqa: E402
-from holoscan.point import resolve_method  # noqa: E402
-from holoscan.result import Status  # noqa: E402
-from test_emd_onecharge import closed  # noqa: E402
+from test_emd_onecharge import closed
+
+import holoscan.kinds.emd.batch as emd_batch
+import holoscan.kinds.emd.pointwise as emd_pointwise
+from holoscan import SolverSettings, model_from_block
+from holoscan.point import resolve_method, solve_points
+from holoscan.result import Status
 
 ONE_CHARGE = {"id": "1q", "kind": "emd", "kappa_sq": 1.0, "source": False,
               "V": "-(8*exp(phi/sqrt(6)) + 4*exp(-2*phi/sqrt(6)))", "f": "exp(-4*phi/sqrt(6))"}

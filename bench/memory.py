@@ -69,7 +69,7 @@ import subprocess
 import sys
 import tempfile
 import time
-from datetime import datetime, timedelta, timezone
+from datetime import UTC, datetime, timedelta
 from pathlib import Path
 
 REPO = Path(__file__).resolve().parents[1]
@@ -82,8 +82,8 @@ import pyarrow.parquet as pq  # noqa: E402
 import holoscan  # noqa: E402
 from holoscan.config import read_yaml  # noqa: E402
 from holoscan.scan.identity import code_hash  # noqa: E402
-from holoscan.scan.snakemake_glue import plan_scan  # noqa: E402
 from holoscan.scan.plan import write_plan_files  # noqa: E402
+from holoscan.scan.snakemake_glue import plan_scan  # noqa: E402
 from holoscan.scan.store import write_segment  # noqa: E402
 from holoscan.scan.tables import COLUMNS, rows_to_table, schema  # noqa: E402
 
@@ -324,7 +324,7 @@ def measure_assembly(work: Path, n_rows: int, n_segments: int, seed: int) -> dic
     reference = rows_to_table([]).schema
     rng = np.random.default_rng(seed)
     host = socket.gethostname()
-    t_base = datetime(2026, 1, 5, 9, 0, tzinfo=timezone.utc)
+    t_base = datetime(2026, 1, 5, 9, 0, tzinfo=UTC)
     t0 = time.perf_counter()
     seg_bytes = 0
     for i, cid in enumerate(plan.chunk_ids):

@@ -27,7 +27,7 @@ from pathlib import Path
 import pyarrow.parquet as pq
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
-from scan_workflow import BenchFailure, load, prepare, snakemake  # noqa: E402
+from scan_workflow import BenchFailure, load, prepare, snakemake
 
 BAR_S = 120.0
 DEMO = {"id": "dilaton-demo", "kind": "emd", "kappa_sq": 1.0,

@@ -11,7 +11,5 @@ from .point import solve_point
 from .result import OBSERVABLES, PointResult, Status
 from .settings import SolverSettings
 
-__all__ = [
-    "__version__", "InputError", "KINDS", "RNModel", "model_from_block", "models_from_list",
-    "solve_point", "OBSERVABLES", "PointResult", "Status", "SolverSettings",
-]
+__all__ = ["KINDS", "OBSERVABLES", "InputError", "PointResult", "RNModel", "SolverSettings", "Status", "__version__",
+           "model_from_block", "models_from_list", "solve_point"]

@@ -14,7 +14,6 @@ from .errors import InputError
 from .kinds import models_from_list
 from .settings import SolverSettings
 
-
 #: largest config file read (bytes): a scan config is a few kilobytes; a bigger file is refused
 #: before it is parsed
 MAX_CONFIG_BYTES = 1 << 20
@@ -60,7 +59,7 @@ def parse_yaml_text(data: bytes, key: str, source: str):
     except UnicodeDecodeError as exc:
         raise InputError(key, source, f"is not UTF-8 text (byte {exc.start} is 0x{data[exc.start]:02x})") from None
     try:
-        return yaml.load(text, Loader=_ConfigLoader)  # noqa: S506 - a safe loader subclass
+        return yaml.load(text, Loader=_ConfigLoader)  # a safe loader subclass
     except _AliasRefused as exc:
         raise InputError(key, source, f"uses a YAML anchor or alias at line {exc.mark.line + 1}; "
                          "write each value out (anchors and aliases are not accepted)") from None

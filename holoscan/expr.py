@@ -41,8 +41,7 @@ import numpy as np
 
 from .errors import InputError
 
-__all__ = ["Expr", "ParsedCoupling", "parse", "FUNCTIONS", "MAX_CHARS", "MAX_TOKENS", "MAX_DEPTH",
-           "MAX_LITERAL"]
+__all__ = ["FUNCTIONS", "MAX_CHARS", "MAX_DEPTH", "MAX_LITERAL", "MAX_TOKENS", "Expr", "ParsedCoupling", "parse"]
 
 MAX_CHARS = 2000
 MAX_TOKENS = 1000
@@ -70,7 +69,7 @@ class Expr:
     (factors, coefficient first; ``a/b`` is ``a * b**-1``), ``Pow`` and ``Call``.
     """
 
-    __slots__ = ("_h", "_const", "_d", "__weakref__")
+    __slots__ = ("__weakref__", "_const", "_d", "_h")
     _fields: tuple = ()
     _rank = 0
 
@@ -93,7 +92,7 @@ class Expr:
     def _ident(self) -> tuple:
         return ()
 
-    def derivative(self) -> "Expr":
+    def derivative(self) -> Expr:
         """Exact d/dphi, simplified (memoised on the node)."""
         d = self._d
         if d is None:
@@ -164,7 +163,7 @@ class Var(Expr):
 
 
 class Call(Expr):
-    __slots__ = ("fn", "arg")
+    __slots__ = ("arg", "fn")
     _fields = ("fn", "arg")
     _rank = 2
 
@@ -274,7 +273,7 @@ class Add(Expr):
         return "".join(out)
 
 
-_TABLE: "weakref.WeakValueDictionary" = weakref.WeakValueDictionary()
+_TABLE: weakref.WeakValueDictionary = weakref.WeakValueDictionary()
 _BUDGET: contextvars.ContextVar = contextvars.ContextVar("holoscan_expr_budget", default=None)
 
 

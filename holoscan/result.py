@@ -108,7 +108,7 @@ class PointResult:
         out = asdict(self)
         out["status"] = self.status.value
         out["Omega"] = self.Omega
-        out["P_mismatch"] = abs(self.P - self.P_check) / abs(self.P) if self.P else (0.0 if self.P == self.P_check else math.nan)
+        out["P_mismatch"] = abs(self.P - self.P_check) / abs(self.P) if self.P else (0.0 if self.P_check == self.P else math.nan)
         out.update(self.ratios())
         return out
 

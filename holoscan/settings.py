@@ -8,7 +8,6 @@ from .errors import InputError
 from .numerics import ShootSettings
 
 
-
 def methods() -> tuple[str, ...]:
     """``auto`` and every method of a registered model kind (:func:`holoscan.kinds.all_methods`)."""
     from .kinds import all_methods
@@ -47,7 +46,7 @@ class SolverSettings:
     fd_step: float = 1e-3
 
     @classmethod
-    def from_block(cls, block, key: str = "solver") -> "SolverSettings":
+    def from_block(cls, block, key: str = "solver") -> SolverSettings:
         """Settings from a ``solver:`` block; the same limits (UPPER_LIMITS, rtol >= 1e-13) hold for
         ``holoscan point`` and for scans (the scan schema states the same maxima)."""
         if block is None:
@@ -80,7 +79,7 @@ class SolverSettings:
             out.append(f"field-equation residual {residual:.3g} > {self.accept_error:g}")
         return out
 
-    def with_method(self, method: str) -> "SolverSettings":
+    def with_method(self, method: str) -> SolverSettings:
         return SolverSettings(**{**asdict(self), "method": method})
 
     def shoot_settings(self) -> ShootSettings:

@@ -12,7 +12,6 @@ import sys
 
 import numpy as np
 
-
 #: floors of relative error measures, shared by every solve path (README "Error evidence"): rho
 #: vanishes at mu = 0 and is measured against max(|rho|, RHO_FLOOR s); cs2 dips towards 0 at a
 #: critical point and is measured against max(|cs2|, CS2_FLOOR)

@@ -27,8 +27,8 @@ The state vector is ``y = (A, A', h, h', Phi, Phi', phi, phi')``.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
 import math
+from dataclasses import dataclass
 from typing import Protocol
 
 import numpy as np

@@ -60,11 +60,11 @@ import time
 
 import numpy as np
 
-from .charged_brane import ChargedBrane, HorizonData
 from ..numerics import Counters, ShootSettings, shoot
 from ..result import PointResult, Status
 from ..settings import SolverSettings
 from ..thermo import RHO_FLOOR, cs2_from_hessian, hessian_from_jacobians, local_stability
+from .charged_brane import ChargedBrane, HorizonData
 
 _DENSITIES = ("s", "rho", "epsilon", "P")
 OBSERVABLES = ("s", "rho", "epsilon", "P", "chi2", "cs2")

@@ -22,7 +22,6 @@ derivative of V at 0; from the scalar equation near the boundary), is removed, a
 """
 from __future__ import annotations
 
-
 import numpy as np
 
 from .charged_brane import ChargedBrane

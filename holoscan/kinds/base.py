@@ -80,7 +80,7 @@ class ModelKind:
 
     # -- required ------------------------------------------------------------------------------
     @classmethod
-    def from_block(cls, block: dict, key: str = "model") -> "ModelKind":
+    def from_block(cls, block: dict, key: str = "model") -> ModelKind:
         raise NotImplementedError(f"kind {cls.kind!r} must define from_block")
 
     def spec(self) -> dict:

@@ -9,6 +9,6 @@
   canonical subdivision built on demand);
 - :mod:`.memo`: bounded per-process caches of solver state, keyed by content (:func:`.memo.clear_all`).
 """
-from .shooting import Counters, ShootSettings, Shot, ShootingProblem, shoot
+from .shooting import Counters, ShootingProblem, ShootSettings, Shot, shoot
 
-__all__ = ["Counters", "ShootSettings", "Shot", "ShootingProblem", "shoot"]
+__all__ = ["Counters", "ShootSettings", "ShootingProblem", "Shot", "shoot"]

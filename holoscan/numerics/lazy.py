@@ -11,8 +11,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from .resolution import HOLE, RESOLVED, ROUGH, _tails, noise_plateau
 from .cheb import PatchSet, fit, nodes
+from .resolution import HOLE, RESOLVED, ROUGH, _tails, noise_plateau
 
 
 class LazyAtlas:

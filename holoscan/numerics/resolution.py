@@ -11,7 +11,6 @@ from __future__ import annotations
 
 import numpy as np
 
-
 RESOLVED, ROUGH, HOLE = 0, 1, 2
 FLAG_NAMES = {RESOLVED: "resolved", ROUGH: "rough", HOLE: "hole"}
 

@@ -22,7 +22,6 @@ from typing import Protocol
 
 import numpy as np
 
-
 #: scipy's step-size heuristics divide by ``atol + rtol |y|``; a component that is exactly zero at
 #: the start (an unsourced scalar) would give 0/0 with ``atol = 0``. This floor is far below any
 #: field value we resolve, so it acts as "effectively zero" absolute tolerance.
@@ -62,12 +61,12 @@ class ShootSettings:
     horizon_offset: float = 1e-10
     residual_samples: int = 64
 
-    def tighter(self, factor: float = 100.0) -> "ShootSettings":
+    def tighter(self, factor: float = 100.0) -> ShootSettings:
         """Same settings with tolerances divided by ``factor`` (for an error estimate, or for shots
         that are differenced, since differencing divides their error by the step)."""
         return replace(self, rtol=max(self.rtol / factor, 2.3e-14), atol=self.atol / factor)
 
-    def varied(self, rtol_factor: float = 1.0, offset_factor: float = 1.0) -> "ShootSettings":
+    def varied(self, rtol_factor: float = 1.0, offset_factor: float = 1.0) -> ShootSettings:
         """Same settings with the tolerances times ``rtol_factor`` (``rtol`` floored at 2.3e-14,
         the double-precision limit of the stepper) and the horizon offset times ``offset_factor``:
         the variants an error estimate compares with."""

@@ -23,6 +23,7 @@ from dataclasses import asdict, dataclass, field
 
 from ..settings import SolverSettings
 
+
 @dataclass(frozen=True, kw_only=True)
 class _Outcome:
     """What every located record carries besides its coordinates: status, reason, cost, extras."""

@@ -4,7 +4,7 @@ from __future__ import annotations
 import json
 import socket
 from collections import Counter
-from datetime import datetime, timezone
+from datetime import UTC, datetime
 from pathlib import Path
 
 import pyarrow as pa
@@ -57,7 +57,7 @@ def assemble(table_file, out_table, summary_json, summary_txt=None) -> dict:
     meta = {
         "schema_version": SCHEMA_VERSION, "package_version": __version__, "code_hash": doc["code_hash"],
         "config_hash": doc["config_hash"], "config": doc["config"], "scan": doc["scan"],
-        "created": datetime.now(timezone.utc).isoformat(timespec="seconds"), "host": socket.gethostname(),
+        "created": datetime.now(UTC).isoformat(timespec="seconds"), "host": socket.gethostname(),
         "plan": Path(table_file).name, "plan_hash": plan_hash,
     }
     table = table.cast(schema(meta))

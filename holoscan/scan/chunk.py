@@ -5,7 +5,7 @@ import json
 import socket
 import time
 import traceback
-from datetime import datetime, timezone
+from datetime import UTC, datetime
 from pathlib import Path
 
 from .. import __version__
@@ -23,7 +23,7 @@ class StaleManifest(RuntimeError):
 
 
 def utc_now() -> str:
-    return datetime.now(timezone.utc).isoformat(timespec="microseconds")
+    return datetime.now(UTC).isoformat(timespec="microseconds")
 
 
 def read_manifest(path) -> dict:

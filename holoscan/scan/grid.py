@@ -12,8 +12,8 @@ import math
 
 import numpy as np
 
-from ..errors import InputError
 from .. import validate as v
+from ..errors import InputError
 
 
 def canon(x: float) -> float:

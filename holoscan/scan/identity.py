@@ -15,7 +15,7 @@ from __future__ import annotations
 
 import hashlib
 import json
-from functools import lru_cache
+from functools import cache
 from pathlib import Path
 
 _PKG = Path(__file__).resolve().parents[1]
@@ -41,7 +41,7 @@ def _kind_files() -> list[Path]:
     return kind_files()
 
 
-@lru_cache(maxsize=None)
+@cache
 def code_hash(root: Path = _PKG) -> str:
     """sha256 over the physics sources (relative path + content) and the extra kind files (name +
     content), first 16 hex digits."""

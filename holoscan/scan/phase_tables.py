@@ -133,7 +133,7 @@ def build_phase_tables(points_file, line_files, critical_files, out_phases, out_
     phases = phases_from_points(points)
     lines = [r for f in line_files for r in pq.read_table(f).to_pylist()]
     crit = [r for f in critical_files for r in pq.read_table(f).to_pylist()]
-    key = lambda r: (order.get(r["model_id"], len(order)), r.get("type", ""), r["mu"] if r["mu"] is not None else 0.0,  # noqa: E731
+    key = lambda r: (order.get(r["model_id"], len(order)), r.get("type", ""), r["mu"] if r["mu"] is not None else 0.0,
                      r["T"] if r["T"] is not None else 0.0)
     lines.sort(key=key)
     crit.sort(key=key)

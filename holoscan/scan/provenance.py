@@ -39,7 +39,7 @@ Identifiers: files are ``run:<path>`` in the namespace ``run`` =
 from __future__ import annotations
 
 import json
-from datetime import datetime, timezone
+from datetime import UTC, datetime
 from pathlib import Path
 
 import pyarrow.parquet as pq
@@ -60,7 +60,7 @@ SUMMARIES = {"summary.json": ("assemble", "points"), "summary.txt": ("assemble",
 
 def _utc(text: str) -> datetime:
     t = datetime.fromisoformat(text)
-    return (t if t.tzinfo else t.replace(tzinfo=timezone.utc)).astimezone(timezone.utc)
+    return (t if t.tzinfo else t.replace(tzinfo=UTC)).astimezone(UTC)
 
 
 def _iso(t: datetime | None) -> str | None:

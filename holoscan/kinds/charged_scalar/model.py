@@ -124,7 +124,7 @@ class ChargedScalarModel(ModelKind):
 
     # -- construction -------------------------------------------------------------------------------
     @classmethod
-    def from_block(cls, block: dict, key: str = "model") -> "ChargedScalarModel":
+    def from_block(cls, block: dict, key: str = "model") -> ChargedScalarModel:
         v.mapping(block, key)
         v.only_keys(block, set(cls.KEYS), key)
         id_ = v.name(v.required(block, "id", key), f"{key}.id")

@@ -211,13 +211,13 @@ class Family:
             w = self._pilot_width()
             s1, E1 = self._pilot
             Ec = self.onset.E_c
-            guess = lambda s: Ec + (E1 - Ec) * (s / s1) ** 2  # noqa: E731
+            guess = lambda s: Ec + (E1 - Ec) * (s / s1) ** 2
             a = 0.0
         else:
             last = self.panels[-1]
             a, w = last.b, (last.b - last.a) * (2.0 if last.tail < 1e-2 * PANEL_TOL else 1.0)
             lo = Chebyshev.fit(last.s[-6:], np.log(last.E[-6:]), deg=3)
-            guess = lambda s: np.exp(lo(s))  # noqa: E731
+            guess = lambda s: np.exp(lo(s))
         for _ in range(6):
             try:
                 p = self._make_panel(a, a + w, guess)

@@ -17,9 +17,9 @@ import math
 
 import numpy as np
 
-from .shooter import family_curve
 from ...numerics import Counters, ShootSettings
 from .fixed_mu import newton_u
+from .shooter import family_curve
 
 
 def x_on_family(sh, phi0: float, u_guess: float, ss: ShootSettings, cnt: Counters) -> tuple[float, float]:
@@ -41,7 +41,7 @@ def folds(sh, ss: ShootSettings, cnt: Counters) -> list[dict]:
             continue
         sign = -1.0 if b > a else 1.0
         lo, hi = fam[i - 1, 0], fam[i + 1, 0]
-        ug = lambda p: float(np.interp(p, fam[:, 0], fam[:, 1]))  # noqa: E731
+        ug = lambda p: float(np.interp(p, fam[:, 0], fam[:, 1]))
 
         def f(p):
             x, _ = x_on_family(sh, p, ug(p), ss, cnt)

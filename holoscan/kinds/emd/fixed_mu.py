@@ -145,7 +145,7 @@ class Curve:
         if 0 < k < len(z) - 1:
             from scipy.optimize import minimize_scalar
 
-            f = lambda t: -(C.chebval(t, C.chebder(self.cT)) / C.chebval(t, self.cT))  # noqa: E731
+            f = lambda t: -(C.chebval(t, C.chebder(self.cT)) / C.chebval(t, self.cT))
             r = minimize_scalar(f, bounds=(z[k - 1], z[k + 1]), method="bounded", options={"xatol": 1e-12})
             return float(-r.fun * 2.0 / (self.lb - self.la)), float(r.x)
         return float(w[k]), float(z[k])

@@ -69,7 +69,7 @@ class EMDModel(ModelKind):
     KEYS = ("id", "kind", "kappa_sq", "V", "f", "source", "energy_scale")
 
     @classmethod
-    def from_block(cls, block: dict, key: str = "model") -> "EMDModel":
+    def from_block(cls, block: dict, key: str = "model") -> EMDModel:
         v.only_keys(block, set(cls.KEYS), key)
         m = cls(
             id=v.name(v.required(block, "id", key), f"{key}.id"),

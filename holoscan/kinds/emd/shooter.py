@@ -27,7 +27,6 @@ from ...bulk.scalar_brane import ScalarBrane
 from ...numerics import Counters, ShootSettings
 from ...numerics.batch import dop853_batch
 
-
 #: boundary dimension of the emd kind (five bulk dimensions)
 D_BOUNDARY = 4
 

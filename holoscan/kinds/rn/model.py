@@ -53,7 +53,7 @@ class RNModel(ModelKind):
     KEYS = ("id", "kind", "d", "kappa_sq", "e_sq")
 
     @classmethod
-    def from_block(cls, block: dict, key: str = "model") -> "RNModel":
+    def from_block(cls, block: dict, key: str = "model") -> RNModel:
         v.only_keys(block, set(cls.KEYS), key)
         return cls(
             id=v.name(v.required(block, "id", key), f"{key}.id"),

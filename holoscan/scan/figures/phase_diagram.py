@@ -30,8 +30,17 @@ from matplotlib.patches import Patch
 
 from .data import ScanTables, count_text, drawable, grid_text, log_T_axis, model_info, provenance_text
 from .raster import nearest_raster
-from .style import (BAD_MARKERS, FAILED_STATUSES, LINE_STYLES, OKABE_ITO, UNCONVERGED_STATUSES, new_figure,
-                    no_data, plain_log_ticks, title)
+from .style import (
+    BAD_MARKERS,
+    FAILED_STATUSES,
+    LINE_STYLES,
+    OKABE_ITO,
+    UNCONVERGED_STATUSES,
+    new_figure,
+    no_data,
+    plain_log_ticks,
+    title,
+)
 
 #: marker of the grid points by dominant phase (others cycle through EXTRA_MARKERS)
 PHASE_MARKERS = {"unique": ".", "normal": "o", "condensed": "s", "high-entropy": "^", "intermediate": "D",

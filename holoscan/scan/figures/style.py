@@ -14,7 +14,7 @@ from ..store import atomic_path
 
 matplotlib.use("Agg")  # files only, never a display
 
-import matplotlib.pyplot as plt  # noqa: E402
+import matplotlib.pyplot as plt
 
 OKABE_ITO = {
     "black": "#000000",
