@@ -37,7 +37,7 @@ def main():
     for method in ("closed-form", "shooting"):
         st = SolverSettings(method=method)
         i = iter(range(10**9))
-        med, lo, hi = median_time(lambda: solve_point(m, *targets[next(i) % len(targets)], st), n)
+        med, lo, hi = median_time(lambda i=i, st=st: solve_point(m, *targets[next(i) % len(targets)], st), n)
         rows.append((f"in-process, {method}", med, lo, hi))
     with tempfile.TemporaryDirectory() as tmp:
         cfg = Path(tmp) / "b.yaml"
@@ -45,7 +45,7 @@ def main():
         for method in ("closed-form", "shooting"):
             cmd = [sys.executable, "-m", "holoscan", "point", "--config", str(cfg), "--model", "b",
                    "--T", "1.0", "--mu", "2.0", "--method", method]
-            med, lo, hi = median_time(lambda: subprocess.run(cmd, check=True, capture_output=True), max(3, n // 3))
+            med, lo, hi = median_time(lambda cmd=cmd: subprocess.run(cmd, check=True, capture_output=True), max(3, n // 3))
             rows.append((f"holoscan point process, {method}", med, lo, hi))
     print(f"{'what':40s} {'median [s]':>11s} {'min':>9s} {'max':>9s}")
     for name, med, lo, hi in rows:

@@ -113,7 +113,7 @@ def find_onset(brane: HairyBrane, rtol: float, offset: float, x_max: float = 400
     i = int(change[0])
     roots = []
     for rt in (rtol, max(rtol / 100.0, 2.3e-14)):
-        roots.append(brentq(lambda x: src(x, rt), xs[i], xs[i + 1], xtol=1e-15, rtol=1e-15, maxiter=200))
+        roots.append(brentq(src, xs[i], xs[i + 1], args=(rt,), xtol=1e-15, rtol=1e-15, maxiter=200))
     x_c = roots[0]
     E_c = float(normal_E(brane, x_c))
     final = brane.shoot([0.0], [E_c], rtol, offset)
@@ -272,7 +272,7 @@ class Family:
         self.ensure(x)
         for p in self.panels:
             if p.obs["x"][0] <= x <= p.obs["x"][-1]:
-                s = brentq(lambda t: p.poly["x"](t) - x, p.a, p.b, xtol=1e-15, rtol=1e-15)
+                s = brentq(lambda t, x_of=p.poly["x"]: x_of(t) - x, p.a, p.b, xtol=1e-15, rtol=1e-15)
                 return s, float(np.exp(p.poly["logE"](s)))
         raise SolveError(f"mu/T = {x:.6g} not found on the condensed family (x is not monotone in psi0)")
 

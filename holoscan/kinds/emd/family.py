@@ -34,6 +34,7 @@ def folds(sh, ss: ShootSettings, cnt: Counters) -> list[dict]:
     from scipy.optimize import minimize_scalar
 
     fam = family_curve(sh)
+    ug = lambda p: float(np.interp(p, fam[:, 0], fam[:, 1]))  # u along the coarse family, a Newton guess
     out = []
     for i in range(1, len(fam) - 1):
         a, b, c = fam[i - 1, 2], fam[i, 2], fam[i + 1, 2]
@@ -41,9 +42,8 @@ def folds(sh, ss: ShootSettings, cnt: Counters) -> list[dict]:
             continue
         sign = -1.0 if b > a else 1.0
         lo, hi = fam[i - 1, 0], fam[i + 1, 0]
-        ug = lambda p: float(np.interp(p, fam[:, 0], fam[:, 1]))
 
-        def f(p):
+        def f(p, sign=sign):
             x, _ = x_on_family(sh, p, ug(p), ss, cnt)
             return sign * x if math.isfinite(x) else math.inf
 

@@ -139,7 +139,8 @@ def solve_family(model, sh: EMDShooter, T: float, mu: float, settings: SolverSet
         s, rho = sh_ * T ** (d - 1), rh * T ** (d - 1)
         P = (T * s + x * T * rho) / d
 
-        def thermo2(dv):
+        def thermo2(dv, xs=xs, sh_=sh_, rh=rh, s=s, rho=rho):
+            """(chi2, cs2) of this branch from family derivatives ``dv``."""
             P_TT, P_Tmu, P_mumu, _ = _family_hessian(dv, xs, sh_, rh, T, d)
             return [P_mumu, cs2_from_hessian(T, x * T, s, rho, P_TT, P_Tmu, P_mumu)]
 
@@ -252,7 +253,7 @@ def solve_sourced(model, sh: EMDShooter, T: float, mu: float, settings: SolverSe
             out.append(PointResult(**common, branch=b, status=Status.FAILED, message=str(exc),
                                    nfev=cnt.nfev, nsteps=cnt.nsteps, niter=niter, wall_time=time.perf_counter() - t0))
             continue
-        That, muhat, shat, rhohat = X
+        _, _, shat, rhohat = X
         s, rho, P = shat * L ** (d - 1), rhohat * L ** (d - 1), P1 * L**d
         f2 = L ** (d - 2)
         P_TT, P_Tmu, P_mumu = P_TT * f2, P_Tmu * f2, P_mumu * f2
