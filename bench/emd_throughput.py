@@ -472,7 +472,8 @@ def demo(a):
     print(f"\n{HEAD} {'diff s':>9s} {'diff rho':>9s}")
     print_table(rows_a, worst_a, rows_b, worst_b)
     print(f"   diffs: worst relative vs the tight solve on the {n_tight}/{len(refs)} sampled targets where it converged"
-          f"{f' (rho not compared at {skipped_rho} with mu = 0)' if skipped_rho else ''}; (b): its branch with the closest s")
+          f"{f' (rho not compared at {skipped_rho} with mu = 0)' if skipped_rho else ''}; "
+          "(b): its branch with the closest s")
     print(f"   production: {n_ok_rows}/{n_rows} rows ok ({n_rows} branches at {len(targets)} targets), "
           f"worst reported error_estimate {est:.1e}")
     if not np.all(worst_a <= TARGET_ACC):

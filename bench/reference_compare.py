@@ -40,7 +40,7 @@ def _ref_worker(args):
         _MODELS[name] = {"demo": demo, "second": second}[name]()
     try:
         rows = solve(_MODELS[name], T, mu)
-    except Exception as exc:  # a failed reference point is reported, not hidden
+    except Exception as exc:  # noqa: BLE001 - a failed reference point is reported, not hidden
         print(f"reference failed at {name} T={T} mu={mu}: {exc!r}", file=sys.stderr)
         rows = []
     for r in rows:

@@ -57,7 +57,7 @@ def main(argv=None) -> int:
     try:
         prepare(root, cfg)
         print(f"load before: {load()}")
-        wall, out, err = snakemake(root, what="dense dilaton scan")
+        wall, _, _ = snakemake(root, what="dense dilaton scan")
         print(f"load after:  {load()}")
         res = root / "results" / cfg["scan"]
         pts = pq.read_table(res / "points.parquet", columns=["T", "mu", "status", "error_estimate", "chunk_id",
@@ -66,7 +66,7 @@ def main(argv=None) -> int:
         n_targets = len({(T, mu) for T, mu in zip(pts["T"], pts["mu"])})
         statuses = Counter(pts["status"])
         missing_err = sum(1 for s, e in zip(pts["status"], pts["error_estimate"])
-                          if s in ("ok", "not converged") and not (e == e))
+                          if s in ("ok", "not converged") and e != e)  # NaN
         chunks = {}
         for c, s0, e0 in zip(pts["chunk_id"], pts["start_time"], pts["end_time"]):
             lo, hi = chunks.get(c, (s0, e0))

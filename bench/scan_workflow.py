@@ -307,7 +307,7 @@ def main(argv=None) -> int:
             n10k = n_points(CLOSED_10K)
             print(f"{tag} workflow: {n10k} points, closed form ...", flush=True)
             w = workflow_scan(CLOSED_10K, rerun=True, all_ok=True, tmp_root=tmp_root)
-            dt, n, worst = in_process(w["table"], CLOSED_10K)
+            dt, _, worst = in_process(w["table"], CLOSED_10K)
             m["wf_wall"].append(w["wall"])
             m["wf_solve"].append(w["solve"])
             m["wf_loop"].append(w["loop"])
@@ -360,7 +360,6 @@ def main(argv=None) -> int:
     # ------------------------------------------------------------------ report
     n10k = n_points(CLOSED_10K)
     wf, _, _ = summary_of(m["wf_wall"])
-    ip, _, _ = summary_of(m["inproc"])
     solve = statistics.median(m["wf_solve"])
     loop = statistics.median(m["wf_loop"])
     core_s = CORES * wf

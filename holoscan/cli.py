@@ -87,7 +87,9 @@ def cmd_assemble(args) -> int:
     except AssemblyError as exc:
         print(f"holoscan: error: {exc}", file=sys.stderr)
         return 3
-    print(summary_text(summary, json.loads(open(args.plan).read())["scan"]), end="")
+    with open(args.plan) as fh:
+        scan = json.load(fh)["scan"]
+    print(summary_text(summary, scan), end="")
     return 0
 
 

@@ -18,7 +18,8 @@ from .settings import SolverSettings
 #: before it is parsed
 MAX_CONFIG_BYTES = 1 << 20
 
-_FLOAT = re.compile(r"""^[-+]?(?:[0-9][0-9_]*(?:\.[0-9_]*)?|\.[0-9_]+)(?:[eE][-+]?[0-9]+)?$|^[-+]?\.(?:inf|Inf|INF)$|^\.(?:nan|NaN|NAN)$""")
+_FLOAT = re.compile(r"^[-+]?(?:[0-9][0-9_]*(?:\.[0-9_]*)?|\.[0-9_]+)(?:[eE][-+]?[0-9]+)?$"
+                    r"|^[-+]?\.(?:inf|Inf|INF)$|^\.(?:nan|NaN|NAN)$")
 
 
 class _ConfigLoader(yaml.SafeLoader):

@@ -18,8 +18,8 @@ import sys
 from dataclasses import asdict, dataclass, field, replace
 
 
-class Status(str, enum.Enum):
-    """Outcome of one solve. The value is the word written into tables."""
+class Status(enum.StrEnum):
+    """Outcome of one solve. The value is the word written into tables (and what ``str`` gives)."""
 
     OK = "ok"
     NOT_CONVERGED = "not converged"
@@ -108,7 +108,8 @@ class PointResult:
         out = asdict(self)
         out["status"] = self.status.value
         out["Omega"] = self.Omega
-        out["P_mismatch"] = abs(self.P - self.P_check) / abs(self.P) if self.P else (0.0 if self.P_check == self.P else math.nan)
+        out["P_mismatch"] = (abs(self.P - self.P_check) / abs(self.P) if self.P
+                             else (0.0 if self.P_check == self.P else math.nan))
         out.update(self.ratios())
         return out
 

@@ -97,7 +97,7 @@ class ChargedBrane:
             return self._rhs_scalar(y)
         d = self.d
         A, dA, h, dh, _, dPh, ph, dph = y
-        V, Vp = _derivs1(self.V, ph)
+        _, Vp = _derivs1(self.V, ph)
         f, fp = _derivs1(self.f, ph)
         e2A = np.exp(-2.0 * A)
         ddA = -dph * dph / (2.0 * (d - 1))
@@ -110,7 +110,7 @@ class ChargedBrane:
         """The same right-hand side for one state, in plain floats (several times faster)."""
         d = self.d
         A, dA, h, dh, _, dPh, ph, dph = y.tolist()
-        V, Vp = _derivs1(self.V, ph)
+        _, Vp = _derivs1(self.V, ph)
         f, fp = _derivs1(self.f, ph)
         e2A = math.exp(-2.0 * A)
         E = e2A * dPh * dPh

@@ -89,7 +89,8 @@ def summarize(table: pa.Table, model_order) -> dict:
 def summary_text(summary: dict, scan: str) -> str:
     cols = [st.value for st in Status]
     w = max([len(m) for m in summary] + [5])
-    lines = [f"holoscan scan '{scan}': rows per model and status", f"{'model':{w}s}  " + "  ".join(f"{c:>13s}" for c in cols)]
+    lines = [f"holoscan scan '{scan}': rows per model and status",
+             f"{'model':{w}s}  " + "  ".join(f"{c:>13s}" for c in cols)]
     for m, c in summary.items():
         lines.append(f"{m:{w}s}  " + "  ".join(f"{c[k]:13d}" for k in cols))
     return "\n".join(lines) + "\n"

@@ -83,7 +83,7 @@ def _solve_block(model, settings, mid, block, base, log) -> list[dict]:
     t0 = time.perf_counter()
     try:
         per_point = [[r.to_dict() for r in rs] for rs in solve_points(model, [(T, mu) for T, mu, _ in block], settings)]
-    except Exception as exc:  # a bug must not cost the other points: record it, then go one by one
+    except Exception as exc:  # noqa: BLE001 - a bug must not cost the other points: record it, then go one by one
         if len(block) == 1:
             T, mu, _ = block[0]
             per_point = [[{"model_id": mid, "kind": model.kind, "d": model.d, "branch": 0, "T": T,

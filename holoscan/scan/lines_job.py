@@ -26,12 +26,14 @@ def run_lines(manifest_path, out_lines, out_critical, log_file: str = "", log=pr
     start = utc_now()
     try:
         rows, cps = locate(model, settings, [tuple(p) for p in man["points"]])
-    except Exception as exc:  # a bug must not pass silently, nor leave nothing: record it
+    except Exception as exc:  # noqa: BLE001 - a bug must not pass silently, nor leave nothing: record it
         log(traceback.format_exc())
-        rows = [LinePoint(model.id, "first-order", "", float("nan"), float("nan"), status="failed",
-                          message=f"internal error: {type(exc).__name__}: {exc}")]
-        cps = [CriticalPoint(model.id, "", float("nan"), float("nan"), float("nan"), float("nan"), status="failed",
-                             message=f"internal error: {type(exc).__name__}: {exc}")] if model.finds_critical_points() else []
+        reason = f"internal error: {type(exc).__name__}: {exc}"
+        rows = [LinePoint(model.id, "first-order", "", float("nan"), float("nan"), status="failed", message=reason)]
+        cps = []
+        if model.finds_critical_points():
+            cps = [CriticalPoint(model.id, "", float("nan"), float("nan"), float("nan"), float("nan"), status="failed",
+                                 message=reason)]
     base = {"kind": model.kind, "lines_key": man["key"], "code_hash": man["code_hash"], "package_version": __version__,
             "host": socket.gethostname(), "start_time": start, "end_time": utc_now(), "log_file": log_file}
     out_r = [{**r.to_dict(), **base} for r in rows]

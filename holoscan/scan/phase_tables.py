@@ -86,7 +86,8 @@ PHASE_COLUMNS = [
 ]
 
 #: physics columns of the phase tables (bit-identical for the same config and code)
-TRANSITION_PHYSICS = ["model_id", "type", "T", "mu", "T_err", "mu_err", "latent_heat", "rho_jump", "s_high", "s_low", "status"]
+TRANSITION_PHYSICS = ["model_id", "type", "T", "mu", "T_err", "mu_err", "latent_heat", "rho_jump", "s_high", "s_low",
+                      "status"]
 CRITICAL_PHYSICS = ["model_id", "T", "mu", "T_err", "mu_err", "status"]
 PHASE_PHYSICS = ["model_id", "T", "mu", "n_branches", "dominant_branch", "dominant_phase", "Omega", "omega_gap",
                  "branch_Omega", "branch_flag", "status"]
@@ -145,7 +146,8 @@ def build_phase_tables(points_file, line_files, critical_files, out_phases, out_
         summary[m] = {
             "dominant_phases": dict(Counter(r["dominant_phase"] or "(none)" for r in phases if r["model_id"] == m)),
             "line_points": dict(Counter(f"{r['type']} ({r['status']})" for r in lines if r["model_id"] == m)),
-            "critical_points": [{k: r[k] for k in ("T", "mu", "T_err", "mu_err", "status")} for r in crit if r["model_id"] == m],
+            "critical_points": [{k: r[k] for k in ("T", "mu", "T_err", "mu_err", "status")}
+                                for r in crit if r["model_id"] == m],
         }
     return summary
 

@@ -218,7 +218,7 @@ def build(results_dir, figures=None) -> ProvDoc:
     for n in ("phases", "transitions", "critical_points"):
         b.gen(tables[n], pt)
     b.derived(tables["phases"], tables["points"])
-    for key, (line_e, crit_e) in lines_of.items():
+    for line_e, crit_e in lines_of.values():
         b.derived(tables["transitions"], line_e)
         b.derived(tables["critical_points"], crit_e)
 

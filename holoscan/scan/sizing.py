@@ -57,7 +57,7 @@ def write_costs(root, costs: dict) -> None:
 
 
 def points_per_job(job_minutes: float, seconds_per_point: float) -> int:
-    return max(1, int(math.floor(job_minutes * 60.0 / max(seconds_per_point, 1e-6))))
+    return max(1, math.floor(job_minutes * 60.0 / max(seconds_per_point, 1e-6)))
 
 
 def runtime_minutes(expected_seconds: float, attempt: int = 1) -> int:

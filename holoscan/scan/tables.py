@@ -34,7 +34,8 @@ COLUMNS = [
     ("trace_anomaly", F64, "1", "(epsilon - (d-1) P) / T^d"),
     ("stability", STR, "", "stable (Hessian of P in (T, mu) positive definite) or unstable"),
     ("phase", STR, "", "phase label of this branch (normal, condensed, unique, high-entropy, intermediate, low-entropy)"),
-    ("phase_flag", STR, "", "stable (dominant: lowest Omega among locally stable branches) | metastable | unstable | unknown"),
+    ("phase_flag", STR, "",
+     "stable (dominant: lowest Omega among locally stable branches) | metastable | unstable | unknown"),
     ("dominant", pa.bool_(), "", "true for the dominant branch at this (T, mu)"),
     ("s_hat", F64, "1", "s / T^(d-1)"),
     ("rho_hat", F64, "1", "rho / T^(d-1)"),
@@ -65,7 +66,8 @@ COLUMNS = [
 
 #: columns whose values are physics: identical, bit for bit, for the same config and code
 PHYSICS_COLUMNS = ["model_id", "kind", "d", "branch", "T", "mu", "s", "rho", "epsilon", "P", "Omega",
-                   "chi2", "cs2", "P_check", "trace_anomaly", "stability", "phase", "phase_flag", "dominant", "s_hat", "rho_hat", "P_hat", "chi2_hat", "status", "method",
+                   "chi2", "cs2", "P_check", "trace_anomaly", "stability", "phase", "phase_flag", "dominant",
+                   "s_hat", "rho_hat", "P_hat", "chi2_hat", "status", "method",
                    "error_estimate", "residual", "point_key"]
 
 

@@ -125,7 +125,7 @@ class Curve:
     cs: np.ndarray
     crho: np.ndarray
 
-    def l(self, z):
+    def log_phi0(self, z):
         return self.la + 0.5 * (self.lb - self.la) * (np.asarray(z) + 1.0)
 
     def T(self, z):
@@ -186,7 +186,7 @@ class Curve:
         return {"T": float(Ts), "z_hot": zh, "z_cold": zc, "s_hot": float(s_h), "s_cold": float(s_c),
                 "rho_hot": float(r_h), "rho_cold": float(r_c), "latent_heat": float(Ts * (s_h - s_c)),
                 "T_spinodal_low": float(T1), "T_spinodal_high": float(T2),
-                "phi0_hot": float(math.exp(self.l(zh))), "phi0_cold": float(math.exp(self.l(zc)))}
+                "phi0_hot": float(math.exp(self.log_phi0(zh))), "phi0_cold": float(math.exp(self.log_phi0(zc)))}
 
     def crossover(self) -> dict | None:
         """The interior maximum of ``ds/dT`` at fixed mu (no folds), or None."""
@@ -203,7 +203,7 @@ class Curve:
         r = minimize_scalar(lambda t: -C.chebval(t, ds) / C.chebval(t, dT), bounds=(z[k - 2], z[k + 2]),
                             method="bounded", options={"xatol": 1e-12})
         return {"T": float(self.T(r.x)), "z": float(r.x), "ds_dT": float(-r.fun),
-                "s": float(C.chebval(r.x, self.cs)), "phi0": float(math.exp(self.l(r.x)))}
+                "s": float(C.chebval(r.x, self.cs)), "phi0": float(math.exp(self.log_phi0(r.x)))}
 
 
 def sample(sh, mu: float, la: float, lb: float, n: int, ss: ShootSettings, cnt: Counters) -> tuple[Curve, Curve]:

@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import math
 import time
+from itertools import pairwise
 
 from ...numerics import Counters
 from ...phases.lines import CriticalPoint, LinePoint, failed_point
@@ -82,7 +83,7 @@ def _emd_sourced(model, settings, Ts, mus):
                 message="located" if co_h else "located; the half-resolution curve misses it (uncertainty unknown)",
                 status="ok" if co_h else "not converged",
                 extra={k: co[k] for k in ("phi0_hot", "phi0_cold")}, **common))
-            for which, key, side in (("high-entropy", "T_spinodal_low", "hot"), ("low-entropy", "T_spinodal_high", "cold")):
+            for which, key in (("high-entropy", "T_spinodal_low"), ("low-entropy", "T_spinodal_high")):
                 err = abs(co[key] - co_h[key]) if co_h else math.nan
                 rows.append(LinePoint(model.id, "instability", "fold of T along the " + curve_method, co[key] * L, mu,
                                       T_err=err * L, message=f"the {which} branch stops being locally stable",
@@ -100,7 +101,7 @@ def _emd_sourced(model, settings, Ts, mus):
                                   message=f"{nf} fold(s) without a resolvable coexistence region in the "
                                           "grid's temperature range", **common))
     cps = []
-    for (a, ga, _), (b, gb, wb) in zip(measures, measures[1:]):
+    for (a, ga, _), (b, gb, wb) in pairwise(measures):
         if ga < 0.0 < gb:
             cps.append(_critical_point(model, sh, ss, a, b, wb, n, L))
             break
@@ -142,7 +143,8 @@ def _critical_point(model, sh, ss, a, b, window, n, L) -> CriticalPoint:
     return CriticalPoint(model.id, method, T_f * L, mu_f * L, T_err=(T_err + 1e-9) * L,
                          mu_err=(abs(mu_f - mu_h) + 1e-9) * L, message="located", shots=cnt.shots,
                          wall_time=time.perf_counter() - t0,
-                         extra={"bracket_mu": [a * L, b * L], "phi0": float(math.exp(fine.l(fine.fold_measure()[1])))})
+                         extra={"bracket_mu": [a * L, b * L],
+                                "phi0": float(math.exp(fine.log_phi0(fine.fold_measure()[1])))})
 
 
 def _emd_family(model, settings, Ts, mus):

@@ -25,6 +25,7 @@ Error evidence of the reference (absolute, source units), summed over the segmen
 from __future__ import annotations
 
 import math
+from itertools import pairwise
 
 import numpy as np
 from numpy.polynomial import chebyshev as C
@@ -147,15 +148,15 @@ class ZeroDensityPressure:
     def _shoot(samples, edges):
         n = SEGMENT_NODES
         z = lobatto(n)
-        taus = np.concatenate([0.5 * (b - a) * (z + 1.0) + a for a, b in zip(edges[:-1], edges[1:])])
-        sub = np.concatenate([0.5 * (b - a) * (z[::2] + 1.0) + a for a, b in zip(edges[:-1], edges[1:])])
+        taus = np.concatenate([0.5 * (b - a) * (z + 1.0) + a for a, b in pairwise(edges)])
+        sub = np.concatenate([0.5 * (b - a) * (z[::2] + 1.0) + a for a, b in pairwise(edges)])
         Ts = np.asarray(samples(np.exp(taus), 1.0), dtype=float)
         Tv = np.asarray(samples(np.exp(sub), 10.0), dtype=float)
         if not (np.all(np.isfinite(Ts)) and np.all(Ts > 0) and np.all(np.isfinite(Tv)) and np.all(Tv > 0)):
             return None
         m = (n + 1) // 2
         return [_Segment(a, b, Ts[k * n:(k + 1) * n], Tv[k * m:(k + 1) * m])
-                for k, (a, b) in enumerate(zip(edges[:-1], edges[1:]))]
+                for k, (a, b) in enumerate(pairwise(edges))]
 
     def _locate(self, phi0: float) -> tuple[int, float]:
         tau = math.log(phi0)

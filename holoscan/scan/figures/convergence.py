@@ -118,7 +118,7 @@ def plot_convergence(tables: ScanTables, models: list[tuple[str, str]]) -> Conve
             ax.set_xlim(mu_e[0], mu_e[-1])
             ax.set_ylim(T_e[0], T_e[-1])
     if mesh is not None:
-        W, H = fig.get_size_inches()
+        W, _ = fig.get_size_inches()
         top, bottom = axes[0, -1].get_position().y1, axes[-1, -1].get_position().y0
         cax = fig.add_axes([1 - 1.3 / W, bottom, 0.18 / W, top - bottom])
         cb = fig.colorbar(mesh, cax=cax)

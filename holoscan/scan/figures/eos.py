@@ -273,7 +273,7 @@ def plot_eos(tables: ScanTables, model_id: str, kind: str) -> EOSFigure:
             caption.append("at a second-order line s/T^(d-1), P/T^d and the trace anomaly run through the value of "
                            "the branch continuing through it (interpolated), chi2/T^(d-2) and cs2 end at the line "
                            "on each side (the other branch extrapolated linearly from its two nearest grid points)")
-        for typ, (colour, ls, lw, text) in LINE_STYLES.items():
+        for typ, (colour, ls, _lw, text) in LINE_STYLES.items():
             for i, xv in enumerate(x_of[typ]):
                 if xs.min() <= xv <= xs.max():
                     for ax in panels.values():

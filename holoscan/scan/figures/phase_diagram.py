@@ -231,8 +231,8 @@ def plot_phase_diagram(tables: ScanTables, model_id: str, kind: str) -> PhaseDia
         text = {"none": "none locally stable", "unique": "unique (one branch)"}.get(n, n)
         if show_points:
             m = _marker(n, i)
-            ax.plot(sel["mu"], sel["T"], ls="", marker=m, ms=3.0 if m != "." else 3.5, mfc="none" if m not in ".x" else "0.25",
-                    mec="0.25", mew=0.7, color="0.25", zorder=2)
+            ax.plot(sel["mu"], sel["T"], ls="", marker=m, ms=3.0 if m != "." else 3.5,
+                    mfc="none" if m not in ".x" else "0.25", mec="0.25", mew=0.7, color="0.25", zorder=2)
             handles.append(Line2D([], [], ls="", marker=m, ms=5, mfc="none" if m not in ".x" else "0.25", mec="0.25",
                                   color="0.25", label=f"grid point; dominant phase {text}"))
     if not show_points:
