@@ -67,6 +67,7 @@ def one_line_error(p, *words):
         assert w in p.stderr, (w, p.stderr)
 
 
+@pytest.mark.workflow
 def test_tables_audit_cannot_read_give_one_line(workspace):
     ws, table, _ = workspace
     foreign = ws / "foreign.parquet"
@@ -94,6 +95,7 @@ def test_tables_audit_cannot_read_give_one_line(workspace):
                    "not a readable Parquet table")
 
 
+@pytest.mark.workflow
 def test_log_lines_belong_by_exact_point_key_from_any_folder(workspace, tmp_path_factory):
     ws, table, keys = workspace
     elsewhere = tmp_path_factory.mktemp("elsewhere")

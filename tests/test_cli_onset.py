@@ -10,6 +10,8 @@ import math
 
 import pytest
 
+pytestmark = pytest.mark.workflow  # every test runs `holoscan onset` in a subprocess
+
 CFG = """models:
   - {id: o2, kind: charged-scalar, d: 3, m_sq: -2, q: 1, delta: 2, probe: true}
   - {id: o1, kind: charged-scalar, d: 3, m_sq: -2, q: 1, delta: 1, probe: true}

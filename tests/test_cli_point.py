@@ -8,6 +8,8 @@ import math
 
 import pytest
 
+pytestmark = pytest.mark.workflow  # every test runs `holoscan point` in a subprocess
+
 GOOD = "models:\n  - {id: a, kind: rn, d: 4, kappa_sq: 0.5, e_sq: 2.0}\n"
 
 

@@ -77,6 +77,7 @@ def test_first_law_and_two_pressure_routes(model, T, mu):
     assert r.trace_anomaly > 0  # a relevant deformation lowers P below its conformal value
 
 
+@pytest.mark.workflow
 def test_point_command_prints_every_branch(tmp_path, run_cli):
     cfg = tmp_path / "m.yaml"
     cfg.write_text("models:\n  - {id: q1, kind: emd, kappa_sq: 1.0, source: false,\n"

@@ -23,6 +23,8 @@ pytest.importorskip("matplotlib")
 
 from holoscan.scan.figures import MANIFEST, figure_files  # noqa: E402
 
+pytestmark = pytest.mark.workflow  # one Snakemake scan for the file; `holoscan figures` and python subprocesses
+
 CFG = {
     "scan": "figs",
     "models": [

@@ -72,6 +72,7 @@ def _valid_png(path):
     assert img.shape[0] >= 300 and float(img[..., :3].std()) > 0.02, path
 
 
+@pytest.mark.workflow
 def test_absurd_infinite_nan_and_missing_values_are_drawn_around(tmp_path):
     rows = [_row("rn", "rn", 4, T, mu) for T in (0.5, 1.0, 2.0) for mu in (0.0, 1.0)]
     rows[0].update(s_hat=1e308, P_hat=math.inf, chi2_hat=math.nan, cs2=None, error_estimate=math.inf)
@@ -95,6 +96,7 @@ def test_absurd_infinite_nan_and_missing_values_are_drawn_around(tmp_path):
     assert "not drawn" in man["captions"]["figures/convergence"]
 
 
+@pytest.mark.workflow
 def test_an_empty_table_and_a_model_without_ok_rows(tmp_path):
     root = write_scan(tmp_path / "empty", [], [("a", "rn", {"d": 4}), ("b", "charged-scalar", {"d": 3})])
     p = figures_cli(root)
@@ -111,6 +113,7 @@ def test_an_empty_table_and_a_model_without_ok_rows(tmp_path):
     assert man["placeholders"] == {} and "no ok dominant rows" in man["captions"]["figures/f-eos"]
 
 
+@pytest.mark.workflow
 def test_huge_error_estimates_of_a_one_charge_scan(tmp_path):
     from holoscan.scan.figures.convergence import plot_convergence
     from holoscan.scan.figures.data import DRAW_MAX, load_scan
@@ -152,6 +155,7 @@ def test_a_figure_that_cannot_be_drawn_becomes_a_listed_placeholder(tmp_path, mo
     assert "figures/rn-phase-diagram" in man["captions"] and "could not" not in man["captions"]["figures/rn-phase-diagram"]
 
 
+@pytest.mark.workflow
 def test_unreadable_tables(tmp_path):
     rows = [_row("rn", "rn", 4, T, mu) for T in (0.5, 1.0) for mu in (0.0, 1.0)]
     root = write_scan(tmp_path / "bad", rows, [("rn", "rn", {"d": 4})])
@@ -165,6 +169,7 @@ def test_unreadable_tables(tmp_path):
     assert p.stderr.count("\n") == 1 and "RESULTS_DIR" in p.stderr and "points.parquet" in p.stderr
 
 
+@pytest.mark.workflow
 def test_figures_of_an_earlier_config_are_removed_and_nothing_else(tmp_path):
     rows = [_row(m, "rn", 4, T, mu) for m in ("a", "b") for T in (0.5, 1.0) for mu in (0.0, 1.0)]
     root = write_scan(tmp_path / "s", rows, [("a", "rn", {"d": 4}), ("b", "rn", {"d": 4})])

@@ -24,12 +24,14 @@ from pathlib import Path
 
 import pyarrow.parquet as pq
 import pytest
+from test_tables import CFG as TABLE_CFG
+from workflow_helpers import scanned_workspace, snakemake_cmd
+
+import holoscan
 
 prov_model = pytest.importorskip("prov.model")
 
-import holoscan
-from test_tables import CFG as TABLE_CFG
-from workflow_helpers import scanned_workspace, snakemake_cmd
+pytestmark = pytest.mark.workflow  # one Snakemake scan for the file; holoscan and snakemake subprocesses
 
 # the two rn models of test_tables.py (one of them with a failed row, so the status counts are not
 # all ok) and a model with a lines job (condensation onset): lines files, transitions

@@ -42,6 +42,7 @@ def test_closed_form_at_an_extreme_temperature_is_an_out_of_range_row(T):
                allow_nan=False)
 
 
+@pytest.mark.workflow
 @pytest.mark.parametrize("T", ["1e-300", "1e300"])
 def test_point_command_prints_the_row_of_an_extreme_temperature(tmp_path, run_cli, T):
     cfg = tmp_path / "m.yaml"

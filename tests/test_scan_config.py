@@ -440,6 +440,7 @@ def _run(args, cwd, timeout):
                           env={**os.environ, "PYTHONHASHSEED": "0"})
 
 
+@pytest.mark.workflow
 @pytest.mark.parametrize("case", CLI_CASES)
 def test_cli_check_bad_config(tmp_path, case):
     mutation, key, value = _BY_ID[case]
@@ -457,6 +458,7 @@ def test_cli_check_bad_config(tmp_path, case):
 # ---------------------------------------------------------------------------------------------------
 # 4. Snakemake: a bad config stops at parse time, before any job.
 # ---------------------------------------------------------------------------------------------------
+@pytest.mark.workflow
 def test_snakemake_stops_before_any_job(tmp_path):
     shutil.copy(REPO / "Snakefile", tmp_path / "Snakefile")
     shutil.copytree(REPO / "workflow", tmp_path / "workflow")
@@ -489,6 +491,7 @@ def _axis(spec) -> np.ndarray:
     return np.unique(vals)
 
 
+@pytest.mark.workflow
 def test_default_config_validates_with_independent_point_count(tmp_path):
     doc = yaml.safe_load((REPO / "config" / "config.yaml").read_text())
     cfg = validate_scan_config(copy.deepcopy(doc))
@@ -559,6 +562,7 @@ def test_regression_top_level_non_string_key_path_type():
     assert isinstance(ei.value.key, str) and ei.value.key == "7"
 
 
+@pytest.mark.workflow
 def test_regression_cli_traceback_on_huge_integer(tmp_path):
     cfg = tmp_path / "scan.yaml"
     cfg.write_text(yaml.safe_dump(mutated(put(["models", 0, "kappa_sq"], _HUGE)), sort_keys=False))

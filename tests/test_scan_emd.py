@@ -6,6 +6,8 @@ import pytest
 from test_emd_onecharge import ONE_CHARGE, closed
 from workflow_helpers import scanned_workspace, table
 
+pytestmark = pytest.mark.workflow  # one Snakemake scan for the file
+
 # one scan serves every test of this file (a workflow run of a dilaton family costs about a minute)
 CONFIG = {"scan": "q", "models": [dict(ONE_CHARGE), {"id": "r", "kind": "rn", "d": 4, "kappa_sq": 0.5, "e_sq": 2.0}],
           "grid": {"T": [1.0, 2.0], "mu_over_T": [0.5, 1.5, 2.5]}, "points_per_job": 3}

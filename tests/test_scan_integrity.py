@@ -64,6 +64,7 @@ def _mus(ws, scan):
 
 # --- own configs ---------------------------------------------------------------------------------
 
+@pytest.mark.workflow
 def test_a_given_config_is_whole_by_itself(tmp_path):
     ws = workspace(tmp_path, DEMO)
     # no 'scan': refused (it would otherwise have run as the default's scan)
@@ -85,6 +86,7 @@ def test_a_given_config_is_whole_by_itself(tmp_path):
     assert p.returncode != 0 and "models" in p.stderr
 
 
+@pytest.mark.workflow
 @pytest.mark.parametrize("doc", [
     {k: v for k, v in A.items() if k != "scan"},
     {"scan": "x", "grid": A["grid"]},
@@ -101,6 +103,7 @@ def test_check_and_the_workflow_judge_a_file_alike(tmp_path, doc):
     assert (chk.returncode == 0) == (p.returncode == 0), (chk.stderr, p.stderr[-2000:])
 
 
+@pytest.mark.workflow
 def test_point_takes_a_scan_config(tmp_path):
     cfg = {"scan": "x", "models": [{"id": "s", "kind": "rn", "d": 3, "kappa_sq": 1.2, "e_sq": 0.8,
                                      "solver": {"method": "shooting", "rtol": 1e-10},
@@ -111,6 +114,7 @@ def test_point_takes_a_scan_config(tmp_path):
     assert json.loads(p.stdout)["method"] == "shooting"
 
 
+@pytest.mark.workflow
 def test_tolerance_limits_are_the_same_for_point_and_scan(tmp_path):
     for rtol, ok in ((0.005, True), (0.5, False)):
         model = {"id": "s", "kind": "rn", "d": 3, "kappa_sq": 1.2, "e_sq": 0.8}
@@ -124,6 +128,7 @@ def test_tolerance_limits_are_the_same_for_point_and_scan(tmp_path):
 
 # --- tables tied to their plan -------------------------------------------------------------------
 
+@pytest.mark.workflow
 @pytest.mark.parametrize("how", ["mtime-trigger", "metadata-removed"])
 def test_switching_back_rebuilds_the_table(tmp_path, how):
     ws = workspace(tmp_path, DEMO)
@@ -142,6 +147,7 @@ def test_switching_back_rebuilds_the_table(tmp_path, how):
     assert "Nothing to be done" in p.stdout + p.stderr
 
 
+@pytest.mark.workflow
 def test_a_damaged_table_is_made_again_and_never_certified(tmp_path):
     ws = workspace(tmp_path, A)
     run(ws)
@@ -172,6 +178,7 @@ def pa_buffer(data: bytes):
 
 # --- planning without side effects ---------------------------------------------------------------
 
+@pytest.mark.workflow
 def test_dry_run_unlock_lint_and_a_refused_run_change_nothing(tmp_path):
     cfg = {**A, "job_minutes": 1.0}  # sizing from cost: must not probe in a dry run
     ws = workspace(tmp_path, cfg)
@@ -209,6 +216,7 @@ def test_dry_run_unlock_lint_and_a_refused_run_change_nothing(tmp_path):
     assert {k: v for k, v in after.items() if k != "report.html"} == before
 
 
+@pytest.mark.workflow
 def test_a_config_that_is_not_utf8_is_one_line(tmp_path):
     ws = workspace(tmp_path, DEMO)
     f = ws / "latin1.yaml"
@@ -238,6 +246,7 @@ def test_a_seal_younger_than_its_run_is_left_alone(tmp_path):
 
 # --- damaged manifests, seals and cost files -----------------------------------------------------
 
+@pytest.mark.workflow
 def test_a_damaged_manifest_never_deletes_a_good_segment(tmp_path):
     ws = workspace(tmp_path, A)
     run(ws)
@@ -282,6 +291,7 @@ BOMB = "scan: x\na: &a [1, 1, 1, 1, 1, 1, 1, 1, 1]\nb: &b [*a, *a, *a, *a, *a, *
        "g: &g [*f, *f, *f, *f, *f, *f, *f, *f, *f]\nh: [*g, *g, *g, *g, *g, *g, *g, *g, *g]\nmodels: []\n"
 
 
+@pytest.mark.workflow
 @pytest.mark.parametrize("doc,needle", [(HUGE, "max_points"), (BOMB, "alias")])
 def test_huge_inputs_are_refused_quickly_in_one_line(tmp_path, doc, needle):
     from holoscan.errors import InputError

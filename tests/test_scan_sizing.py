@@ -9,11 +9,14 @@ import json
 import math
 
 import pyarrow.parquet as pq
+import pytest
 
 from holoscan.scan.config import validate_scan_config
 from holoscan.scan.plan import make_plan
 from holoscan.scan.sizing import COSTS_FILE
 from workflow_helpers import run, workspace
+
+pytestmark = pytest.mark.workflow  # the test runs the Snakemake workflow
 
 JOB_MINUTES = 0.02  # 1.2 s per job: a few shooting points each
 CONFIG = {

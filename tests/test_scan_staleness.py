@@ -1,4 +1,5 @@
-"""Point identity and staleness through the real Snakemake workflow (scenarios a to h: no change, extended axes, a changed model, tolerance or physics code, damaged segments, kills).
+"""Point identity and staleness through the real Snakemake workflow (scenarios a to h: no change,
+extended axes, a changed model, tolerance or physics code, damaged segments, kills).
 
 Expectations are the project's own contract (only stale points are solved; a table never mixes code
 versions; interrupted runs lose nothing): common practice for incremental build systems, no source.
@@ -9,9 +10,12 @@ import random
 import shutil
 
 import pyarrow.compute as pc
+import pytest
 
 from holoscan.scan.tables import PHYSICS_COLUMNS
 from workflow_helpers import REPO, run, run_and_kill, solved_since, table, unlock, workspace
+
+pytestmark = pytest.mark.workflow  # every test runs the Snakemake workflow
 
 BASE = {
     "scan": "t",

@@ -23,8 +23,12 @@ from holoscan.scan.tables import PHYSICS_COLUMNS
 from workflow_helpers import run, workspace
 
 SLURM_CONF = os.environ.get("HOLOSCAN_SLURM_CONF", "")
-pytestmark = pytest.mark.skipif(not SLURM_CONF or not shutil.which("sbatch"),
-                                reason="no SLURM cluster (run .ci/run, which starts a one-node cluster)")
+pytestmark = [
+    pytest.mark.workflow,
+    pytest.mark.cluster,
+    pytest.mark.skipif(not SLURM_CONF or not shutil.which("sbatch"),
+                       reason="no SLURM cluster (run .ci/run, which starts a one-node cluster)"),
+]
 
 CONFIG = {
     "scan": "cluster",

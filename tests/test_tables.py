@@ -10,6 +10,7 @@ import math
 import pandas as pd
 import pyarrow as pa
 import pyarrow.parquet as pq
+import pytest
 
 import holoscan.scan.chunk as chunk_mod
 from holoscan.scan.assemble import assemble
@@ -95,6 +96,7 @@ def test_failed_point_is_a_row_and_the_chunk_goes_on(tmp_path, monkeypatch):
     assert "a" in text and "not converged" in text
 
 
+@pytest.mark.workflow
 def test_audit_prints_the_row_and_recomputes(tmp_path, run_cli):
     _, out, _ = build(tmp_path)
     r = run_cli("audit", out, "--model", "s", "--T", 0.5, "--mu", 1.0, "--recompute")
