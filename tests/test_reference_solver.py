@@ -69,7 +69,8 @@ def test_first_law_and_maxwell_relation(x):
     for k in range(2):
         dP = []
         for m_ in (1.0, 0.5):
-            e = np.zeros(2); e[k] = 0.01 * m_
+            e = np.zeros(2)
+            e[k] = 0.01 * m_
             a, b = _obs(DEMO, *(x + e), zm=c["zm"]), _obs(DEMO, *(x - e), zm=c["zm"])
             dP.append((a["P"] - b["P"]) / (0.02 * m_))
         dPr = (4 * dP[1] - dP[0]) / 3

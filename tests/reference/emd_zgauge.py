@@ -164,7 +164,8 @@ def shoot(model: Model, phi_h: float, Q: float, delta: float = 0.01, order: int 
 
 def _exp_series(lat, X, c):
     """exp(c X) as a lattice series (X has no constant term)."""
-    out = np.zeros(lat.N); out[lat.i0] = 1.0
+    out = np.zeros(lat.N)
+    out[lat.i0] = 1.0
     term = out.copy()
     for n in range(1, int(lat.E[-1] / (2 * lat.alpha)) + 2):
         term = lat.mul(term, X) * (c / n)
@@ -193,7 +194,8 @@ def _match(lat, Y, zm, Q, Jr):
             Jac = np.empty((3, 3))
             for k in range(3):
                 h = 1e-7 * max(abs(p[k]), [abs(p[0]) * 1e-3 + 1e-12, abs(Y[0]) / zD * 1e-3 + 1e-12, 1e-6][k])
-                pk = p.copy(); pk[k] += h
+                pk = p.copy()
+                pk[k] += h
                 Jac[:, k] = (resid(pk) - r) / h
         dp = np.linalg.solve(Jac, -r)
         p = p + dp
@@ -266,7 +268,8 @@ def scan(model, phi_range=(0.05, 8.0), n_phi=40, u_max=0.95, n_u=16):
     if key not in model._cache:
         ph = np.geomspace(*phi_range, n_phi)
         us = np.linspace(0.0, u_max, n_u)
-        TT = np.empty((n_phi, n_u)); MM = np.empty((n_phi, n_u))
+        TT = np.empty((n_phi, n_u))
+        MM = np.empty((n_phi, n_u))
         with np.errstate(all="ignore"):
             for i, p in enumerate(ph):
                 for j, u in enumerate(us):
@@ -347,7 +350,8 @@ def _derivatives(model, x, zm, hphi=None, hu=None):
     for k, h in enumerate((hphi, hu)):
         c = []
         for m_ in (1.0, 0.5, 0.25):
-            e = np.zeros(2); e[k] = m_ * h
+            e = np.zeros(2)
+            e[k] = m_ * h
             a, b = _obs(model, *(x + e), zm=zm), _obs(model, *(x - e), zm=zm)
             c.append(np.array([(a[q] - b[q]) / (2 * m_ * h) for q in keys]))
         r1, r2 = (4 * c[1] - c[0]) / 3, (4 * c[2] - c[1]) / 3

@@ -105,8 +105,10 @@ def point(T, mu, branch=0, kappa_sq=1.0):
     if y == 0:     # neutral brane: rho = mu r_h^2/kappa^2 + O(mu^3), so chi2 = r_h^2/kappa^2
         chi2 = rh ** 2 / kappa_sq
     else:
-        dT_dr = mp.diff(lambda a: Tm(a, k)[0], rh); dT_dk = mp.diff(lambda b: Tm(rh, b)[0], k)
-        dm_dr = mp.diff(lambda a: Tm(a, k)[1], rh); dm_dk = mp.diff(lambda b: Tm(rh, b)[1], k)
+        dT_dr = mp.diff(lambda a: Tm(a, k)[0], rh)
+        dT_dk = mp.diff(lambda b: Tm(rh, b)[0], k)
+        dm_dr = mp.diff(lambda a: Tm(a, k)[1], rh)
+        dm_dk = mp.diff(lambda b: Tm(rh, b)[1], k)
         dr_dr = mp.diff(lambda a: _by_rk(a, k, kappa_sq)[3], rh)
         dr_dk = mp.diff(lambda b: _by_rk(rh, b, kappa_sq)[3], k)
         A = mp.matrix([[dT_dr, dT_dk], [dm_dr, dm_dk]])

@@ -62,13 +62,19 @@ def horizon_series(model, phi_h: float, Q: float, order: int = 14):
     dVc = taylor(model.dV, phi_h, K)
     ic = taylor(lambda p: 1.0 / model.f(p), phi_h, K)
     gc = taylor(lambda p: model.df(p) / model.f(p) ** 2, phi_h, K)
-    zser = np.zeros(K); zser[0] = 1.0; zser[1] = -1.0
+    zser = np.zeros(K)
+    zser[0] = 1.0
+    zser[1] = -1.0
     z2 = _mul(zser, zser, K)
     z6 = _mul(_mul(z2, z2, K), z2, K)
-    F = np.zeros(K); chi = np.zeros(K); phi = np.zeros(K); phi[0] = phi_h
+    F = np.zeros(K)
+    chi = np.zeros(K)
+    phi = np.zeros(K)
+    phi[0] = phi_h
 
     def residuals(F, chi, phi):
-        dphi = phi.copy(); dphi[0] = 0.0
+        dphi = phi.copy()
+        dphi[0] = 0.0
         Vs, dVs = _compose(Vc, dphi, K), _compose(dVc, dphi, K)
         ifs, gs = _compose(ic, dphi, K), _compose(gc, dphi, K)
         Fp, chip, php = -_deriv_x(F), -_deriv_x(chi), -_deriv_x(phi)
@@ -139,7 +145,9 @@ class BoundaryLattice:
                 n = index(s)
                 if n is None:
                     raise ValueError("exponent lattice not closed under addition")
-                ia.append(p); ib.append(q); ic.append(n)
+                ia.append(p)
+                ib.append(q)
+                ic.append(n)
         self.ia, self.ib, self.ic = np.array(ia), np.array(ib), np.array(ic)
         self.ialpha = key[a]
         self.iDelta = key[D]
@@ -173,12 +181,18 @@ class BoundaryLattice:
     def solve(self, J, v, G4, Q):
         """Coefficients (phi, G, X) for the free data; X has no constant term."""
         N, E = self.N, self.E
-        phi = np.zeros(N); phi[self.ialpha] = J; phi[self.iDelta] += v
-        G = np.zeros(N); G[self.i4] = G4
+        phi = np.zeros(N)
+        phi[self.ialpha] = J
+        phi[self.iDelta] += v
+        G = np.zeros(N)
+        G[self.i4] = G4
         X = np.zeros(N)
-        z6 = np.zeros(N); z6[self.i6] = 1.0
-        fixed_phi = np.ones(N, bool); fixed_phi[[self.ialpha, self.iDelta]] = False
-        fixed_G = np.ones(N, bool); fixed_G[self.i4] = False
+        z6 = np.zeros(N)
+        z6[self.i6] = 1.0
+        fixed_phi = np.ones(N, bool)
+        fixed_phi[[self.ialpha, self.iDelta]] = False
+        fixed_G = np.ones(N, bool)
+        fixed_G[self.i4] = False
         self.gap4 = 0.0
         for _ in range(int(E[-1] / self.alpha) + 3):
             pw = self.powers(phi)
@@ -188,7 +202,8 @@ class BoundaryLattice:
             gs = sum(self.gc[n] * pw[n] for n in range(0, self.nmax + 1))
             tp = E * phi
             tp2 = self.mul(tp, tp)
-            onepG = G.copy(); onepG[self.i0] += 1.0
+            onepG = G.copy()
+            onepG[self.i0] += 1.0
             rhsG = Vs + self.mul(onepG, tp2) / 6.0 + Q ** 2 * self.mul(z6, ifs) / 6.0
             tX = tp2 / 3.0
             N3 = -(self.mul(G, E * tp) - 4 * self.mul(G, tp) + self.mul(E * G, tp)
