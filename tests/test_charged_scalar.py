@@ -12,8 +12,8 @@ import pytest
 from scipy.linalg import eig
 
 from holoscan import InputError, RNModel, SolverSettings, Status, model_from_block, solve_point
-from holoscan.kinds.charged_scalar.brane import HairyBrane
 from holoscan.kinds.charged_scalar import model as charged_scalar
+from holoscan.kinds.charged_scalar.brane import HairyBrane
 
 DEFAULT = SolverSettings()
 TIGHT = SolverSettings(rtol=1e-12, horizon_offset=1e-9)

@@ -13,12 +13,12 @@ import math
 import numpy as np
 import pytest
 from numpy.polynomial import chebyshev as C
+from test_emd_onecharge import ONE_CHARGE, X_MAX, closed
 
 from holoscan import SolverSettings, Status, model_from_block, solve_point
-from holoscan.numerics.cheb import PatchSet, fit, nodes
 from holoscan.kinds.emd.batch import BatchSolver
 from holoscan.kinds.emd.pointwise import shooter_for
-from test_emd_onecharge import ONE_CHARGE, X_MAX, closed
+from holoscan.numerics.cheb import PatchSet, fit, nodes
 
 DEMO = {"id": "demo", "kind": "emd", "kappa_sq": 1.0, "source": True,
         "V": "-12*cosh(0.6*phi) + 0.77*phi**2 - 0.15*phi**4 + 0.0015*phi**6", "f": "sech(1.1*phi)"}

@@ -11,11 +11,11 @@ reference's own stated error (holographic renormalisation: de Haro, Skenderis & 
 Commun. Math. Phys. 217, 595; Bianchi, Freedman & Skenderis 2002, Nucl. Phys. B 631, 159).
 """
 import pytest
+from reference.emd_zgauge import solve
+from reference.models import DEMO_F, DEMO_V, demo
 
 from holoscan import Status
 from holoscan.kinds.emd.model import EMDModel
-from reference.emd_zgauge import solve
-from reference.models import DEMO_F, DEMO_V, demo
 
 TARGETS = [(0.235, 0.2), (0.27, 0.6), (0.195, 0.8)]
 

@@ -9,9 +9,9 @@ import math
 
 import numpy as np
 import pytest
+from test_emd_onecharge import ONE_CHARGE, closed
 
 from holoscan import Status, model_from_block
-from test_emd_onecharge import ONE_CHARGE, closed
 
 
 @pytest.fixture(scope="module")

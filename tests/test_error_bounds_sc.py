@@ -30,9 +30,9 @@ import math
 import numpy as np
 import pytest
 import yaml
-
-from holoscan import Status, model_from_block, SolverSettings
 from test_charged_scalar import cheb  # Chebyshev differentiation matrix (Trefethen 2000)
+
+from holoscan import SolverSettings, Status, model_from_block
 
 ROOT = __import__("pathlib").Path(__file__).resolve().parents[1]
 

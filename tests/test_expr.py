@@ -54,7 +54,7 @@ CASES = [
 IDS = [c[0] for c in CASES]
 
 
-@functools.lru_cache(maxsize=None)
+@functools.cache
 def coupling(text):
     return ParsedCoupling(text, KEY)
 

@@ -16,12 +16,11 @@ import numpy as np
 import pyarrow as pa
 import pyarrow.parquet as pq
 import pytest
-
 from workflow_helpers import scanned_workspace
 
 pytest.importorskip("matplotlib")
 
-from holoscan.scan.figures import MANIFEST, figure_files  # noqa: E402
+from holoscan.scan.figures import MANIFEST, figure_files
 
 pytestmark = pytest.mark.workflow  # one Snakemake scan for the file; `holoscan figures` and python subprocesses
 

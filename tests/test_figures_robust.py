@@ -26,7 +26,7 @@ import pytest
 
 pytest.importorskip("matplotlib")
 
-from holoscan.scan.figures import MANIFEST, figure_files  # noqa: E402
+from holoscan.scan.figures import MANIFEST, figure_files
 
 CODE = "c0ffee00c0ffee00"
 

@@ -16,11 +16,11 @@ independent solves, never against stored numbers.
 """
 
 import pytest
+from test_emd_onecharge import ONE_CHARGE, X_MAX, closed
 
 from holoscan import SolverSettings, Status, model_from_block, solve_point
 from holoscan.phases.dominance import classify
 from holoscan.phases.lines import locate
-from test_emd_onecharge import ONE_CHARGE, X_MAX, closed
 
 DEMO = {"id": "dil", "kind": "emd", "kappa_sq": 1.0,
         "V": "-12*cosh(0.6*phi) + 0.77*phi**2 - 0.15*phi**4 + 0.0015*phi**6", "f": "sech(1.1*phi)"}

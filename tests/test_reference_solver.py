@@ -3,9 +3,8 @@ import math
 
 import numpy as np
 import pytest
-
 from reference import onecharge as oc
-from reference.emd_zgauge import VARIANT, _derivatives, _obs, shoot, thermo_zh1, unsourced_point
+from reference.emd_zgauge import VARIANT, _derivatives, _obs, shoot, unsourced_point
 from reference.models import demo, second
 
 DEMO = demo()

@@ -2,7 +2,6 @@
 "no solution" past the bound is a row too. Reference: the one-charge black hole (Behrndt, Cvetic &
 Sabra 1999, Nucl. Phys. B 553, 317; DeWolfe, Gubser & Rosen 2011, Phys. Rev. D 83, 086005)."""
 import pytest
-
 from test_emd_onecharge import ONE_CHARGE, closed
 from workflow_helpers import scanned_workspace, table
 

@@ -18,11 +18,11 @@ from pathlib import Path
 import pyarrow.parquet as pq
 import pytest
 import yaml
+from workflow_helpers import run, snakemake_cmd, workspace
 
 from holoscan.scan.config import validate_scan_config
 from holoscan.scan.plan import make_plan
 from holoscan.scan.snakemake_glue import start_run
-from workflow_helpers import run, snakemake_cmd, workspace
 
 DEMO = {  # plays the part of the shipped default config/config.yaml
     "scan": "d",

@@ -10,11 +10,11 @@ import math
 
 import pyarrow.parquet as pq
 import pytest
+from workflow_helpers import run, workspace
 
 from holoscan.scan.config import validate_scan_config
 from holoscan.scan.plan import make_plan
 from holoscan.scan.sizing import COSTS_FILE
-from workflow_helpers import run, workspace
 
 pytestmark = pytest.mark.workflow  # the test runs the Snakemake workflow
 

@@ -11,9 +11,9 @@ import shutil
 
 import pyarrow.compute as pc
 import pytest
+from workflow_helpers import REPO, run, run_and_kill, solved_since, table, unlock, workspace
 
 from holoscan.scan.tables import PHYSICS_COLUMNS
-from workflow_helpers import REPO, run, run_and_kill, solved_since, table, unlock, workspace
 
 pytestmark = pytest.mark.workflow  # every test runs the Snakemake workflow
 

@@ -16,11 +16,11 @@ import time
 
 import pyarrow.parquet as pq
 import pytest
+from workflow_helpers import run, workspace
 
 from holoscan.scan.phase_tables import PHASE_PHYSICS
 from holoscan.scan.store import index_store
 from holoscan.scan.tables import PHYSICS_COLUMNS
-from workflow_helpers import run, workspace
 
 SLURM_CONF = os.environ.get("HOLOSCAN_SLURM_CONF", "")
 pytestmark = [

@@ -7,7 +7,7 @@ import signal
 import subprocess
 import sys
 import time
-from datetime import datetime, timezone
+from datetime import UTC, datetime
 from pathlib import Path
 
 import pyarrow.parquet as pq
@@ -38,7 +38,7 @@ def snakemake_cmd(*extra):
 
 def run(ws: Path, *extra, env=None, timeout=600, check=True):
     """Run the workflow to completion; returns (CompletedProcess, UTC start time)."""
-    start = datetime.now(timezone.utc)
+    start = datetime.now(UTC)
     p = subprocess.run(snakemake_cmd(*extra), cwd=ws, capture_output=True, text=True, timeout=timeout,
                        env={**os.environ, **(env or {})})
     if check and p.returncode != 0:

@@ -48,7 +48,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.integrate import solve_ivp
 
-from .series import BoundaryLattice, horizon_series, taylor
+from .series import BoundaryLattice, horizon_series
 
 
 @dataclass

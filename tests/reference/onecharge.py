@@ -21,7 +21,6 @@ from __future__ import annotations
 import math
 
 import mpmath as mp
-
 import numpy as np
 
 SQ6 = math.sqrt(6.0)

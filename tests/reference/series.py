@@ -198,8 +198,8 @@ class BoundaryLattice:
             pw = self.powers(phi)
             Vs = sum(self.Vc[n] * pw[n] for n in range(2, self.nmax + 1)) / 3.0
             dVs = sum(self.dVc[n] * pw[n] for n in range(2, self.nmax + 1))
-            ifs = sum(self.ic_[n] * pw[n] for n in range(0, self.nmax + 1))
-            gs = sum(self.gc[n] * pw[n] for n in range(0, self.nmax + 1))
+            ifs = sum(self.ic_[n] * pw[n] for n in range(self.nmax + 1))
+            gs = sum(self.gc[n] * pw[n] for n in range(self.nmax + 1))
             tp = E * phi
             tp2 = self.mul(tp, tp)
             onepG = G.copy()
