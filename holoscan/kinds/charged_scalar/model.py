@@ -215,14 +215,10 @@ class ChargedScalarModel(ModelKind):
     def _normal(self, T: float, mu: float) -> dict:
         """Closed form of the normal brane: (s, rho, P, P_TT, P_Tmu, P_mumu)."""
         if not self.probe:
-            r = self.normal_model().closed_form(T, mu)
-            d, k2, g2 = self.d, self.kappa_sq, self.normal_model().gamma_sq
-            rh = r.extra["r_h"]
-            den = 2 * d * rh - 4 * math.pi * T
-            r_T, r_mu = 4 * math.pi * rh / den, 2 * (d - 2) * mu / (g2 * den)
-            P_TT = 2 * math.pi * (d - 1) * rh ** (d - 2) * r_T / k2
-            P_Tmu = 2 * math.pi * (d - 1) * rh ** (d - 2) * r_mu / k2
-            return dict(s=r.s, rho=r.rho, P=r.P, P_TT=P_TT, P_Tmu=P_Tmu, P_mumu=r.chi2)
+            rn = self.normal_model()
+            r = rn.closed_form(T, mu)
+            P_TT, P_Tmu, P_mumu = rn.pressure_hessian(T, mu, r.extra["r_h"])
+            return dict(s=r.s, rho=r.rho, P=r.P, P_TT=P_TT, P_Tmu=P_Tmu, P_mumu=P_mumu)
         # probe: A_t = mu (1 - (r_h/r)^(d-2)) on Schwarzschild-AdS, r_h = 4 pi T / d
         d = self.d
         c = 4 * math.pi / d

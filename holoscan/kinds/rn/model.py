@@ -80,13 +80,10 @@ class RNModel(ModelKind):
         d = self.d
         return (4 * math.pi * T + math.sqrt(16 * math.pi**2 * T**2 + 4 * d * (d - 2) * mu**2 / self.gamma_sq)) / (2 * d)
 
-    def closed_form(self, T: float, mu: float) -> PointResult:
-        t0 = time.perf_counter()
+    def pressure_hessian(self, T: float, mu: float, rh: float) -> tuple[float, float, float]:
+        """Second derivatives ``(P_TT, P_Tmu, P_mumu)`` of the pressure at ``(T, mu)`` with horizon
+        radius ``rh`` (:meth:`horizon_radius`); units E^(d-2) like chi2."""
         d, k2, e2, g2 = self.d, self.kappa_sq, self.e_sq, self.gamma_sq
-        rh = self.horizon_radius(T, mu)
-        M = rh**d + mu**2 * rh ** (d - 2) / g2
-        s = 2 * math.pi * rh ** (d - 1) / k2
-        rho = (d - 2) * mu * rh ** (d - 2) / e2
         # derivatives of r_h(T, mu) from d r^2 - 4 pi T r - (d-2) mu^2 / gamma^2 = 0
         den = 2 * d * rh - 4 * math.pi * T
         r_T = 4 * math.pi * rh / den
@@ -94,6 +91,16 @@ class RNModel(ModelKind):
         P_TT = 2 * math.pi * (d - 1) * rh ** (d - 2) * r_T / k2
         P_Tmu = 2 * math.pi * (d - 1) * rh ** (d - 2) * r_mu / k2
         P_mumu = (d - 2) / e2 * (rh ** (d - 2) + mu * (d - 2) * rh ** (d - 3) * r_mu)
+        return P_TT, P_Tmu, P_mumu
+
+    def closed_form(self, T: float, mu: float) -> PointResult:
+        t0 = time.perf_counter()
+        d, k2, e2, g2 = self.d, self.kappa_sq, self.e_sq, self.gamma_sq
+        rh = self.horizon_radius(T, mu)
+        M = rh**d + mu**2 * rh ** (d - 2) / g2
+        s = 2 * math.pi * rh ** (d - 1) / k2
+        rho = (d - 2) * mu * rh ** (d - 2) / e2
+        P_TT, P_Tmu, P_mumu = self.pressure_hessian(T, mu, rh)
         eps, P = (d - 1) * M / (2 * k2), M / (2 * k2)
         return PointResult(
             model_id=self.id, kind=self.kind, d=d, method="closed-form", T=T, mu=mu,
