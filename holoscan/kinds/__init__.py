@@ -53,21 +53,27 @@ def kind_files() -> list[Path]:
     return [Path(p).expanduser().resolve() for p in raw.split(os.pathsep) if p.strip()]
 
 
+def load_kind_file(path) -> None:
+    """Import one kind file (which registers its kinds with :func:`register`); once per path."""
+    path = Path(path).expanduser().resolve()
+    if not path.is_file():
+        raise InputError(KIND_FILES_ENV, str(path), "no such kind file")
+    name = "holoscan_user_kind_" + hashlib.sha256(str(path).encode()).hexdigest()[:12]
+    if name in sys.modules:
+        return
+    spec = importlib.util.spec_from_file_location(name, path)
+    module = importlib.util.module_from_spec(spec)
+    sys.modules[name] = module
+    try:
+        spec.loader.exec_module(module)
+    except Exception:
+        del sys.modules[name]
+        raise
+
+
 def _load_kind_files() -> None:
     for path in kind_files():
-        if not path.is_file():
-            raise InputError(KIND_FILES_ENV, str(path), "no such kind file")
-        name = "holoscan_user_kind_" + hashlib.sha256(str(path).encode()).hexdigest()[:12]
-        if name in sys.modules:
-            continue
-        spec = importlib.util.spec_from_file_location(name, path)
-        module = importlib.util.module_from_spec(spec)
-        sys.modules[name] = module
-        try:
-            spec.loader.exec_module(module)
-        except Exception:
-            del sys.modules[name]
-            raise
+        load_kind_file(path)
 
 
 _load_kind_files()
@@ -106,4 +112,4 @@ def models_from_list(blocks, key: str = "models") -> dict:
 
 
 __all__ = ["KINDS", "KIND_FILES_ENV", "ChargedScalarModel", "EMDModel", "ModelKind", "RNModel", "all_methods",
-           "kind_class", "kind_files", "model_from_block", "models_from_list", "register"]
+           "kind_class", "kind_files", "load_kind_file", "model_from_block", "models_from_list", "register"]
