@@ -37,7 +37,7 @@ def temporary_name(path: Path) -> Path:
     """The hidden name ``path`` is written under before it is renamed into place (same folder,
     so the rename is atomic; the process id keeps concurrent writers apart)."""
     path = Path(path)
-    return path.with_name(f".{path.name}.{os.getpid()}.tmp")
+    return path.with_name(f".{path.name}.tmp-{os.getpid()}")
 
 
 def _fsync(path: Path) -> None:
