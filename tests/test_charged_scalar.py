@@ -5,6 +5,7 @@ Reissner-Nordstrom closed form, the second-order transition and the first law on
 Probe conventions: Hartnoll, Herzog & Horowitz 2008, Phys. Rev. Lett. 101, 031601 ("HHH PRL");
 backreaction: Hartnoll, Herzog & Horowitz 2008, JHEP 12, 015 ("HHH JHEP").
 """
+import itertools
 import math
 
 import numpy as np
@@ -130,7 +131,7 @@ def test_backreacted_onset_approaches_probe_as_q_grows():
         assert o["status"] == "ok", o["message"]
         devs.append(abs(o["T_c"] / math.sqrt(q * 2.0 * o["rho"]) / ref - 1))
     assert devs[0] > devs[1] > devs[2]
-    for a, b in zip(devs, devs[1:]):
+    for a, b in itertools.pairwise(devs):
         assert 3.0 < a / b < 4.5  # roughly 1/q^2: doubling q divides the deviation by ~4
 
 
@@ -166,7 +167,7 @@ def test_probe_normal_branch_closed_form():
     sh = brane.shoot([0.0], [2.0], 1e-10, 1e-8)
     m = model_from_block(block())
     n = branches(m, 1.0, float(sh.x[0]))["normal"]
-    assert n.P == pytest.approx(float(sh.p_hat[0]), rel=1e-10)
+    assert n.P == pytest.approx(float(sh.p_hat[0]), rel=1e-10)  # noqa: SIM300 - P is the pressure, not a constant
     assert n.rho == pytest.approx(float(sh.rho_hat[0]), rel=1e-10)
     assert n.s == pytest.approx(float(sh.s_hat[0]), rel=1e-9)
 
@@ -192,7 +193,7 @@ def test_branches_and_symmetry(probe2):
     assert m.rho == -c.rho and m.P == c.P and m.s == c.s and m.extra["condensate"] == c.extra["condensate"]
     # conformal: at (2T, 2mu) observables of dimension n scale by 2^n (common practice, no source)
     t = probe2.solve(1.4 * Tc, 2.0)[1]
-    assert t.P == pytest.approx(8 * c.P, rel=1e-8) and t.rho == pytest.approx(4 * c.rho, rel=1e-8)
+    assert t.P == pytest.approx(8 * c.P, rel=1e-8) and t.rho == pytest.approx(4 * c.rho, rel=1e-8)  # noqa: SIM300 - P: pressure
     assert t.extra["condensate"] == pytest.approx(4 * c.extra["condensate"], rel=1e-8)  # Delta = 2
     assert c.trace_anomaly == 0.0 and c.cs2 == pytest.approx(0.5, rel=1e-6)
 

@@ -74,8 +74,9 @@ def test_reference_obeys_first_law_and_matches_the_model(d):
     m = RNModel("m", d, kappa_sq=k2, e_sq=e2)
     for T, mu in ((0.3, 0.0), (0.3, 1.1), (2.0, 0.5), (0.01, 3.0)):
         ref = exact(d, k2, e2, T, mu)
-        assert cstep(lambda t: reference(d, k2, e2, t, mu)["P"], T) == pytest.approx(ref["s"], rel=1e-13)
-        assert cstep(lambda x: reference(d, k2, e2, T, x)["P"], mu) == pytest.approx(ref["rho"], rel=1e-13, abs=1e-300)
+        assert cstep(lambda t, mu=mu: reference(d, k2, e2, t, mu)["P"], T) == pytest.approx(ref["s"], rel=1e-13)
+        assert cstep(lambda x, T=T: reference(d, k2, e2, T, x)["P"], mu) == pytest.approx(ref["rho"], rel=1e-13,
+                                                                                          abs=1e-300)
         assert ref["epsilon"] + ref["P"] == pytest.approx(T * ref["s"] + mu * ref["rho"], rel=1e-13)
         (c,) = solve_point(m, T, mu, SolverSettings(method="closed-form"))
         for k in OBS:
@@ -107,7 +108,7 @@ def test_error_estimate_bounds_the_actual_error(d):
              if max(errs.values()) > r.error_estimate]
     assert not under
     # the estimate is not vacuous: within a factor 10^4 of the actual error where that is resolved
-    for T, x, r, errs in rows:
+    for _T, _x, r, errs in rows:
         worst = max(errs.values())
         if worst > 1e-12:
             assert r.error_estimate < 1e4 * worst
@@ -123,7 +124,7 @@ def test_each_component_catches_its_own_degradation(change, component):
     # accept_error), the named component is among the largest, and the estimate still bounds the actual error.
     st = SolverSettings(method="shooting", **change)
     for d in (3, 5):
-        for T, x, r, errs in sweep(d, st, xs=(0.0, 8.0), Ts=(0.7,)):
+        for _T, x, r, errs in sweep(d, st, xs=(0.0, 8.0), Ts=(0.7,)):
             worst = max(errs.values())
             assert worst <= r.error_estimate, (d, x, errs, r.error_estimate)
             if r.status is Status.OK:

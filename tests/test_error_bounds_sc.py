@@ -70,7 +70,7 @@ class Collocation:
         return F, Ph, chi, L, F1, Ph1, chi1, L1, H, W, h, hz, phz
 
     def observables(self, u):
-        F, Ph, chi, L, F1, Ph1, *_ = self.fields(u)
+        _F, Ph, chi, L, _F1, Ph1, *_ = self.fields(u)
         T = (3.0 + L[-1]) * np.exp(-chi[-1] / 2) / (4 * math.pi)
         mu, rho = Ph[0], (Ph[0] - Ph1[0]) / self.e2
         s, P = 2 * math.pi / self.k2, (1.0 - L[0]) / (2 * self.k2)
@@ -122,7 +122,7 @@ class Collocation:
         n = self.n
         p0, E = start
         u = np.concatenate([np.full(n, p0), np.full(n, E), np.zeros(n), np.zeros(n)])
-        for p in np.linspace(p0, psi_h, int(math.ceil(abs(psi_h - p0) / 0.05)) + 1):
+        for p in np.linspace(p0, psi_h, math.ceil(abs(psi_h - p0) / 0.05) + 1):
             u = self.newton(u, ("psi_h", p))
         return self.newton(u, ("x", x))
 

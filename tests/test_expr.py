@@ -95,7 +95,7 @@ def test_values_match_numpy(text, formula):
     ("12/3*2", 12 / 3 * 2),
     ("-3**2*2", -3**2 * 2),
     ("2*3 + 4*5", 2 * 3 + 4 * 5),
-    ("- -2", - -2),
+    ("- -2", - -2),  # noqa: B002 - double negation on purpose: Python's own value of the same text
     (".5 + 1.5e-3*1000", .5 + 1.5e-3 * 1000),
 ])
 def test_precedence(text, expected):

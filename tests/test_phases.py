@@ -66,7 +66,7 @@ def test_one_charge_dominant_branch_has_lowest_closed_form_omega():
     win = [r for r in rows if r.dominant]
     assert len(win) == 1 and win[0].phase_flag == "stable" and win[0].stability == "stable"
     assert win[0].Omega == pytest.approx(min(o[0] for o in omegas), rel=1e-6)
-    other = [r for r in rows if not r.dominant][0]
+    other = next(r for r in rows if not r.dominant)
     assert other.phase_flag == "unstable" and other.Omega > win[0].Omega
 
 

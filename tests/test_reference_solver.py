@@ -43,17 +43,21 @@ def test_onecharge_closed_form_both_branches(phi_h):
     assert c["rho_hat"] == pytest.approx(ref["rho"], rel=1e-10)
 
 
+def _first_law_of_the_closed_form(br, T, mu):
+    p = oc.point(T, mu, br)
+    P = lambda a, b: oc.point(a, b, br)["P"]
+    rho = lambda a, b: oc.point(a, b, br)["rho"]
+    d = lambda g, h=1e-4: (4 * (g(h / 2) - g(-h / 2)) / h - (g(h) - g(-h)) / (2 * h)) / 3   # Richardson
+    assert d(lambda h: P(T + h, mu)) == pytest.approx(p["s"], rel=1e-9)
+    assert d(lambda h: P(T, mu + h)) == pytest.approx(p["rho"], rel=1e-9)
+    assert d(lambda h: rho(T, mu + h)) == pytest.approx(p["chi2"], rel=1e-9)
+
+
 def test_onecharge_closed_form_first_law_and_bound():
     # Thermodynamic consistency of the closed form (common practice, no source): s = dP/dT,
     # rho = dP/dmu on both branches, and no brane past mu/T = pi/sqrt 2 (DeWolfe, Gubser & Rosen 2011).
     for br, (T, mu) in ((0, (1.0, 1.2)), (1, (0.8, 1.5))):
-        p = oc.point(T, mu, br)
-        P = lambda a, b: oc.point(a, b, br)["P"]
-        rho = lambda a, b: oc.point(a, b, br)["rho"]
-        d = lambda g, h=1e-4: (4 * (g(h / 2) - g(-h / 2)) / h - (g(h) - g(-h)) / (2 * h)) / 3   # Richardson
-        assert d(lambda h: P(T + h, mu)) == pytest.approx(p["s"], rel=1e-9)
-        assert d(lambda h: P(T, mu + h)) == pytest.approx(p["rho"], rel=1e-9)
-        assert d(lambda h: rho(T, mu + h)) == pytest.approx(p["chi2"], rel=1e-9)
+        _first_law_of_the_closed_form(br, T, mu)
     assert oc.point(1.0, math.pi / math.sqrt(2) * 1.001, 0) is None
     assert oc.point(1.0, math.pi / math.sqrt(2) * 0.999, 1) is not None
 
@@ -64,7 +68,7 @@ def test_first_law_and_maxwell_relation(x):
     # ds/dmu|_T = drho/dT|_mu (common practice, no source); P by the trace Ward identity.
     x = np.array(x)
     c = _obs(DEMO, *x)
-    D, E = _derivatives(DEMO, x, c["zm"])
+    D, _ = _derivatives(DEMO, x, c["zm"])
     for k in range(2):
         dP = []
         for m_ in (1.0, 0.5):

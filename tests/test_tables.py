@@ -49,7 +49,7 @@ def build(tmp_path, cfg=CFG):
 def test_field_metadata_and_file_key_round_trip(tmp_path):
     # Arrow keeps field-level key/value metadata through Parquet (Apache Arrow documentation,
     # "store_schema"); our contract: every column carries its unit and meaning.
-    plan, out, _ = build(tmp_path)
+    _, out, _ = build(tmp_path)
     t = pq.read_table(out)
     assert t.num_rows == 11
     for name, typ, unit, desc in COLUMNS:

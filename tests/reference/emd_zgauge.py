@@ -42,6 +42,7 @@ J^(1/(4-Delta)) = 1; unsourced results depend on mu/T only.
 """
 from __future__ import annotations
 
+import itertools
 import math
 from dataclasses import dataclass, field
 
@@ -82,7 +83,7 @@ def _rhs(model, Q):
     V, dV, f, df = model.V, model.dV, model.f, model.df
 
     def rhs(y, Y):
-        phi, psi, F, chi, M = Y
+        phi, psi, F, chi, _ = Y
         z = math.exp(y)
         fv = float(f(phi))
         z6 = z ** 6
@@ -150,7 +151,7 @@ def shoot(model: Model, phi_h: float, Q: float, delta: float = 0.01, order: int 
     out["nfev"] += n
     lat = model.lattice(emax)
     J, v, G4 = _match(lat, Y, zm, Q, Jr)
-    phi_c, G_c, X_c = lat.solve(J, v, G4, Q)
+    phi_c, _, X_c = lat.solve(J, v, G4, Q)
     chi_b = Y[3] - lat.evaluate(X_c, zm)
     # mu = e^{chi_b/2} [M(zm) + e^{-chi_b/2} int_0^zm Q s e^{-X/2}/f ds]
     expX = _exp_series(lat, X_c, -0.5)
@@ -184,7 +185,7 @@ def _match(lat, Y, zm, Q, Jr):
     scale = np.array([abs(Y[0]), abs(Y[1]), 1.0]) + 1e-300
 
     def resid(p):
-        ph, G, X = lat.solve(p[0], p[1], p[2], Q)
+        ph, G, _ = lat.solve(p[0], p[1], p[2], Q)
         return (np.array([lat.evaluate(ph, zm), lat.evaluate(ph, zm, True), 1.0 + lat.evaluate(G, zm)]) - Y[:3]) / scale
 
     r = resid(p)
@@ -276,7 +277,7 @@ def scan(model, phi_range=(0.05, 8.0), n_phi=40, u_max=0.95, n_u=16):
                     try:
                         th = _obs(model, p, u, fast=True)
                         TT[i, j], MM[i, j] = th["T"], th["mu"]
-                    except Exception:
+                    except Exception:  # noqa: BLE001 - a shot that fails for any reason is a gap (NaN) in the coarse map
                         TT[i, j] = MM[i, j] = np.nan
         model._cache[key] = (ph, us, TT, MM)
     return model._cache[key]
@@ -495,7 +496,7 @@ def solve_unsourced(model, T, mu, phi_grid=None):
             pts.append((p, np.nan))
     out = []
     xs = lambda p: unsourced_point(model, p)["x"] - x0
-    for (pa, xa), (pb, xb) in zip(pts[:-1], pts[1:]):
+    for (pa, xa), (pb, xb) in itertools.pairwise(pts):
         if np.isfinite(xa) and np.isfinite(xb) and (xa - x0) * (xb - x0) <= 0:
             ph = brentq(xs, pa, pb, xtol=1e-13)
             out.append(_unsourced_row(model, ph, T, sign))
