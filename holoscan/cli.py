@@ -68,7 +68,8 @@ def cmd_write_manifest(args) -> int:
 
 
 def cmd_solve_chunk(args) -> int:
-    from .scan.chunk import StaleManifest, run_chunk
+    from .scan.chunk import run_chunk
+    from .scan.manifests import StaleManifest
 
     try:
         n = run_chunk(args.manifest, args.out, log_file=args.log or "")
@@ -76,6 +77,19 @@ def cmd_solve_chunk(args) -> int:
         print(f"holoscan: error: {exc}", file=sys.stderr)
         return 3
     print(f"wrote {n} rows to {args.out}")
+    return 0
+
+
+def cmd_build_state(args) -> int:
+    from .scan.manifests import StaleManifest
+    from .scan.shared_state import build_state
+
+    try:
+        n = build_state(args.manifest, args.out)
+    except StaleManifest as exc:
+        print(f"holoscan: error: {exc}", file=sys.stderr)
+        return 3
+    print(f"wrote {n} bytes to {args.out}")
     return 0
 
 
@@ -94,8 +108,8 @@ def cmd_assemble(args) -> int:
 
 
 def cmd_solve_lines(args) -> int:
-    from .scan.chunk import StaleManifest
     from .scan.lines_job import run_lines
+    from .scan.manifests import StaleManifest
 
     try:
         n, c = run_lines(args.manifest, args.out, args.critical, log_file=args.log or "")
@@ -236,6 +250,11 @@ def build_parser() -> argparse.ArgumentParser:
     asm.add_argument("--summary", required=True)
     asm.add_argument("--summary-text", default=None)
     asm.set_defaults(func=cmd_assemble)
+    bs = sub.add_parser("build-state", help="(workflow) build the state a model's chunks share (its atlas) "
+                        "from a state manifest")
+    bs.add_argument("manifest")
+    bs.add_argument("--out", required=True)
+    bs.set_defaults(func=cmd_build_state)
     sl = sub.add_parser("solve-lines", help="(workflow) locate one model's transition lines from a lines manifest")
     sl.add_argument("manifest")
     sl.add_argument("--out", required=True)

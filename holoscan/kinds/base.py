@@ -50,6 +50,12 @@ What a kind may override (the defaults are stated)
 ``figures`` : tuple of str (class attribute)
     The per-model figures a scan draws for this kind, from ``phase-diagram``, ``eos`` and
     ``condensate`` (see :mod:`holoscan.scan.figures`). Default: the first two.
+``shares_state(settings)`` / ``shared_state(targets, settings)`` / ``adopt_shared_state(state, settings)``
+    What the solves of many targets share and is costly to build (e.g. an atlas of the horizon-
+    data map), as a dict of numpy arrays, built once for all of a scan's targets of the model and
+    adopted by every job that solves some of them. Adopting it must not change any number (only
+    the time), and a state made for other settings is refused (ValueError). Default: ``None`` and
+    nothing to adopt.
 ``unit_facts(block, d)`` : classmethod
     What the figures need to label units, from a config block alone (no solve): a dict with
     ``conformal`` (bool: T and mu in any unit E) and ``delta`` (the condensate's dimension or
@@ -109,6 +115,16 @@ class ModelKind:
 
     def onset(self, mu: float, settings: SolverSettings = SolverSettings()) -> dict:
         raise NotImplementedError(f"kind {self.kind!r} has no condensation onset")
+
+    def shares_state(self, settings: SolverSettings = SolverSettings()) -> bool:
+        """True when :meth:`shared_state` has something to share with these settings."""
+        return False
+
+    def shared_state(self, targets, settings: SolverSettings = SolverSettings()) -> dict | None:
+        return None
+
+    def adopt_shared_state(self, state: dict, settings: SolverSettings = SolverSettings()) -> None:
+        return None
 
     @classmethod
     def unit_facts(cls, block: dict, d: int) -> dict:

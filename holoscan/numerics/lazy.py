@@ -139,6 +139,55 @@ class LazyAtlas:
             out[j] = np.where(hit.any(axis=1), hit.argmax(axis=1), -1)
         return out
 
+    # -- state (to share an atlas between processes) ---------------------------------------------------
+    def _settings(self) -> np.ndarray:
+        return np.array([*self.domain, self.n, self.tol, *self.initial, *self.min_width, *self.absolute], dtype=float)
+
+    def state(self) -> dict:
+        """Every built cell and leaf as plain arrays (for ``numpy.savez``); :meth:`adopt` takes them back.
+
+        Cells are canonical (a cell's content depends only on its own samples), so an atlas that
+        adopts another process's cells returns at every point exactly what it would have built."""
+        keys = list(self.cells)
+        return {
+            "settings": self._settings(),
+            "cell_keys": np.array([",".join(str(x) for x in k) for k in keys]),
+            "cell_bounds": np.array([self.cells[k][0] for k in keys], dtype=float).reshape(-1, 4),
+            "cell_split": np.array([(-1, -1) if self.cells[k][1] is None else tuple(int(b) for b in self.cells[k][1])
+                                    for k in keys], dtype=np.int8).reshape(-1, 2),
+            "cell_leaf": np.array([self.cells[k][2] for k in keys], dtype=np.int64),
+            "leaf_coeffs": (np.array(self.leaf_coeffs, dtype=float) if self.leaf_coeffs
+                            else np.zeros((0, 1, self.n, self.n))),
+            "leaf_flags": np.array(self.leaf_flags, dtype=np.int8),
+            "leaf_tails": np.array(self.leaf_tails, dtype=float),
+        }
+
+    def adopt(self, state) -> int:
+        """Take the cells of another atlas of the same function and settings (a :meth:`state`) that
+        this one has not built; returns the number of cells taken. Refuses (ValueError) a state made
+        with other settings. Samples are not counted (none were taken here)."""
+        if not np.array_equal(np.asarray(state["settings"], float), self._settings()):
+            raise ValueError("atlas state made with other settings")
+        taken = 0
+        coeffs, flags, tails = state["leaf_coeffs"], state["leaf_flags"], state["leaf_tails"]
+        for name, b, sp, leaf in zip(state["cell_keys"], state["cell_bounds"], state["cell_split"], state["cell_leaf"]):
+            parts = str(name).split(",")
+            key = (parts[0], *(int(x) for x in parts[1:]))
+            if key in self.cells:
+                continue
+            bounds = tuple(float(x) for x in b)
+            if sp[0] >= 0:
+                self.cells[key] = (bounds, (bool(sp[0]), bool(sp[1])), -1)
+            else:
+                self.cells[key] = (bounds, None, len(self.leaf_bounds))
+                self.leaf_bounds.append(bounds)
+                self.leaf_coeffs.append(np.array(coeffs[leaf], dtype=float))
+                self.leaf_flags.append(int(flags[leaf]))
+                self.leaf_tails.append(float(tails[leaf]))
+            taken += 1
+        self._ps = None
+        return taken
+
     # -- evaluation -------------------------------------------------------------------------------------
     @property
     def patches(self) -> PatchSet:

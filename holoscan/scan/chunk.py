@@ -5,7 +5,6 @@ import json
 import socket
 import time
 import traceback
-from datetime import UTC, datetime
 from pathlib import Path
 
 from .. import __version__
@@ -13,49 +12,21 @@ from ..kinds import model_from_block
 from ..point import solve_points
 from ..result import Status
 from ..settings import SolverSettings
-from .identity import code_hash
-from .store import text_hash, write_segment
+from .manifests import check_code, read_manifest, utc_now
+from .shared_state import adopt_states
+from .store import write_segment
 from .tables import rows_to_table
 
 
-class StaleManifest(RuntimeError):
-    pass
-
-
-def utc_now() -> str:
-    return datetime.now(UTC).isoformat(timespec="microseconds")
-
-
-def read_manifest(path) -> dict:
-    """A manifest, checked: JSON text whose hash is the one its name carries
-    (``<id>.<text hash>[...].json``, see scan/plan.py). Raises StaleManifest otherwise."""
-    p = Path(path)
-    try:
-        text = p.read_text()
-        doc = json.loads(text)
-    except (OSError, ValueError, UnicodeDecodeError) as exc:
-        raise StaleManifest(f"{p}: unreadable manifest ({type(exc).__name__}); run the workflow again to re-plan") from None
-    parts = p.name.split(".")
-    if len(parts) >= 3 and text_hash(text) != parts[1]:
-        raise StaleManifest(f"{p}: damaged manifest (its text does not match its name); run the workflow again")
-    if not isinstance(doc, dict) or "code_hash" not in doc:
-        raise StaleManifest(f"{p}: not a holoscan manifest")
-    return doc
-
-
-def check_code(manifest: dict) -> None:
-    """Raise StaleManifest when the manifest was planned with other physics code than this one."""
-    if manifest["code_hash"] != code_hash():
-        raise StaleManifest(f"manifest made with physics code {manifest['code_hash']}, this is {code_hash()}: "
-                            "the code changed after planning; run the workflow again to re-plan")
-
-
-def solve_manifest(manifest: dict, *, log_file: str = "", log=print) -> list[dict]:
-    """Rows (dicts in the table schema) for every point of ``manifest``."""
+def solve_manifest(manifest: dict, *, log_file: str = "", log=print, root=None) -> list[dict]:
+    """Rows (dicts in the table schema) for every point of ``manifest``; with ``root`` (the scan's
+    results folder) its models first adopt the shared states the manifest names."""
     check_code(manifest)
     host = socket.gethostname()
     models = {mid: (model_from_block(m["spec"], f"manifest.models.{mid}"), SolverSettings(**m["solver"]))
               for mid, m in manifest["models"].items()}
+    if root is not None:
+        adopt_states(manifest, models, root, log)
     rows = []
     base = {"chunk_id": manifest["chunk"], "code_hash": manifest["code_hash"], "package_version": __version__,
             "host": host, "log_file": log_file}
@@ -112,6 +83,7 @@ def _solve_block(model, settings, mid, block, base, log) -> list[dict]:
 def run_chunk(manifest_path, out_path, log_file: str = "", log=print) -> int:
     """Solve the manifest and write the sealed segment ``out_path``. Returns the number of rows."""
     manifest = read_manifest(manifest_path)
-    rows = solve_manifest(manifest, log_file=log_file, log=log)
+    root = Path(out_path).resolve().parent.parent  # results/<scan>/segments/<chunk>.parquet
+    rows = solve_manifest(manifest, log_file=log_file, log=log, root=root)
     write_segment(rows_to_table(rows), Path(out_path), [p[3] for p in manifest["points"]], manifest["code_hash"])
     return len(rows)

@@ -4,14 +4,16 @@ from __future__ import annotations
 import json
 import socket
 import traceback
+from pathlib import Path
 
 from .. import __version__
 from ..kinds import model_from_block
 from ..phases.lines import CriticalPoint, LinePoint, locate
 from ..settings import SolverSettings
-from .chunk import check_code, read_manifest, utc_now
+from .manifests import check_code, read_manifest, utc_now
 from .phase_tables import CRITICAL_COLUMNS, TRANSITION_COLUMNS
 from .seals import write_seal
+from .shared_state import adopt_earlier, context_of
 from .store import atomic_write_table
 from .tables import table_from_rows
 
@@ -23,6 +25,11 @@ def run_lines(manifest_path, out_lines, out_critical, log_file: str = "", log=pr
     check_code(man)
     model = model_from_block(man["spec"], f"manifest.{man['model_id']}")
     settings = SolverSettings(**man["solver"])
+    # the model's shared states (its atlas) built for this context, if any are on disk already
+    shared = Path(out_lines).resolve().parent.parent / "shared"
+    n = adopt_earlier(model, settings, shared, context_of(man), log)
+    if n:
+        log(f"{model.id}: adopted {n} shared state(s)")
     start = utc_now()
     try:
         rows, cps = locate(model, settings, [tuple(p) for p in man["points"]])

@@ -49,6 +49,18 @@ class Plan:
     texts: dict = None  # plan file path (str) -> its exact text (manifests, lines manifests, table file)
     manifests: dict = None  # chunk id or "lines-<key>" -> manifest path
     remade: dict = None  # sealed outputs to make again -> reason (they gave the table file a new name)
+    states: dict = None  # model id -> shared-state key, for models whose new chunks share a state
+
+    def state_file(self, key: str) -> Path:
+        """Where the shared state ``key`` (e.g. a model's atlas) is kept: ``shared/<key>.npz``."""
+        return self.root / "shared" / f"{key}.npz"
+
+    def chunk_states(self, chunk: str) -> list[Path]:
+        """The shared-state files a new chunk's job adopts (none for a chunk this plan does not list)."""
+        models = (self.chunk_models or {}).get(chunk, ())
+        return [self.state_file(self.states[m]) for m in models if m in (self.states or {})]
+
+    chunk_models: dict = None  # new chunk id -> ids of its models
 
     def lines_outputs(self, key: str) -> tuple[Path, Path]:
         return _lines_outputs(self.root, key)
@@ -60,6 +72,9 @@ class Plan:
         """The manifest of a new chunk (in the main process) or, for a chunk this plan does not
         list (a cluster job re-planning after other chunks finished), the intact one on disk."""
         return self.manifests.get(chunk) or find_manifest(self.root / "plan", chunk)
+
+    def state_manifest_file(self, key: str) -> Path:
+        return self.manifests.get("state-" + key) or find_manifest(self.root / "plan", "state-" + key)
 
     def lines_manifest_file(self, key: str) -> Path:
         return self.manifests.get("lines-" + key) or find_manifest(self.root / "plan", "lines-" + key)
@@ -90,9 +105,12 @@ def chunk_manifest_text(doc: dict, chunk: str) -> str:
     write it from the table file without planning again)."""
     pts = [[m, T, mu, k] for m, T, mu, k, c in doc["rows"] if c == chunk]
     used = sorted({p[0] for p in pts})
+    states = doc.get("states", {})
+    shared = {m: states[m][0] for m in used if m in states and chunk in states[m][1]}
     return json.dumps({"scan": doc["scan"], "chunk": chunk, "code_hash": doc["code_hash"],
                        "config_hash": doc["config_hash"], "package_version": doc["package_version"],
-                       "models": {m: doc["models"][m] for m in used}, "points": pts}, sort_keys=True)
+                       "models": {m: doc["models"][m] for m in used}, "points": pts, "shared": shared},
+                      sort_keys=True)
 
 
 def lines_manifest_text(doc: dict, key: str) -> str:
@@ -104,14 +122,28 @@ def lines_manifest_text(doc: dict, key: str) -> str:
                        "points": grid}, sort_keys=True)
 
 
+def state_manifest_text(doc: dict, key: str) -> str:
+    """The manifest of shared-state job ``key``: the model and the points of its new chunks."""
+    mid, chunks = next((m, c) for m, (k, c) in doc["states"].items() if k == key)
+    chunks = set(chunks)
+    pts = sorted([T, mu] for m, T, mu, _, c in doc["rows"] if m == mid and c in chunks)
+    return json.dumps({"scan": doc["scan"], "key": key, "code_hash": doc["code_hash"], "model_id": mid,
+                       "spec": doc["models"][mid]["spec"], "solver": doc["models"][mid]["solver"],
+                       "points": pts}, sort_keys=True)
+
+
 def write_manifest_from_table(table_file, out) -> None:
     """Write the manifest ``out`` (``<chunk>.<hash>[.n].json`` or ``lines-<key>.<hash>[...].json``)
     from the table file; refuses when the text would not match the hash in its name."""
     doc = json.loads(Path(table_file).read_text())
     name = Path(out).name
     ident, th = name.split(".")[:2]
-    text = (lines_manifest_text(doc, ident[len("lines-"):]) if ident.startswith("lines-")
-            else chunk_manifest_text(doc, ident))
+    if ident.startswith("lines-"):
+        text = lines_manifest_text(doc, ident[len("lines-"):])
+    elif ident.startswith("state-"):
+        text = state_manifest_text(doc, ident[len("state-"):])
+    else:
+        text = chunk_manifest_text(doc, ident)
     if text_hash(text) != th:
         raise ValueError(f"{out}: the plan in {Path(table_file).name} gives another manifest; run the workflow again")
     atomic_write_text(Path(out), text, durable=False)
@@ -182,7 +214,7 @@ def make_plan(cfg: ScanConfig, results_dir="results") -> Plan:
     chash = config_hash(cfg.canonical_json())
     index = index_store(root / "segments")
     models, table, missing, per_model, lines = {}, [], [], [], []
-    costs, sizing, cost_of = read_costs(root), [], {}
+    costs, sizing, cost_of, shares = read_costs(root), [], {}, {}
     for mp in cfg.models:
         spec, solver = mp.model.spec(), mp.settings.canonical()
         models[mp.model.id] = {"spec": spec, "solver": solver}
@@ -198,6 +230,7 @@ def make_plan(cfg: ScanConfig, results_dir="results") -> Plan:
             table.append([mp.model.id, T, mu, k])
             if k not in index.where:
                 missing.append([mp.model.id, T, mu, k])
+        shares[mp.model.id] = (ctx, mp.model.shares_state(mp.settings))
         ppj, sec, source = _sizing(cfg, mp, ctx, costs)
         models[mp.model.id]["cost_key"] = cost_key(ctx)
         sizing.append((mp.model.id, ppj, sec, source))
@@ -230,12 +263,21 @@ def make_plan(cfg: ScanConfig, results_dir="results") -> Plan:
             for p in pts:
                 chunk_of[p[3]] = cid
     rows = [[*p, chunk_of[p[3]]] for p in table]
+    # one shared-state job per model whose kind shares a state (an atlas) between its new chunks,
+    # keyed by the model context and the new points (so a state file never changes once written)
+    states = {}
+    for mid, (ctx, does) in shares.items():
+        mine = [(cid, pts) for cid, pts in new_chunks if pts[0][0] == mid]
+        if does and mine:
+            keys = sorted(p[3] for _, pts in mine for p in pts)
+            skey = hashlib.sha256("\n".join([ctx, *keys]).encode()).hexdigest()[:16]
+            states[mid] = [skey, sorted(cid for cid, _ in mine)]
     pdir = root / "plan"
     doc = {"scan": cfg.scan, "code_hash": code, "config_hash": chash, "config": cfg.raw,
            "package_version": __version__, "models": models,
            "model_order": [mp.model.id for mp in cfg.models],
            "columns": ["model_id", "T", "mu", "point_key", "chunk"], "rows": rows,
-           "lines": [[m["model_id"], m["key"]] for m in lines]}
+           "lines": [[m["model_id"], m["key"]] for m in lines], "states": states}
     table_text = json.dumps(doc, sort_keys=True, default=str)
     plan_hash = plan_hash_of(table_text)
     texts, manifests = {}, {}
@@ -243,6 +285,10 @@ def make_plan(cfg: ScanConfig, results_dir="results") -> Plan:
         manifest = chunk_manifest_text(doc, cid)
         path = _free_name(pdir, f"{cid}.{text_hash(manifest)}", manifest)
         texts[str(path)], manifests[cid] = manifest, path
+    for skey, _ in states.values():
+        text = state_manifest_text(doc, skey)
+        path = _free_name(pdir, f"state-{skey}.{text_hash(text)}", text)
+        texts[str(path)], manifests["state-" + skey] = text, path
     remade = {}
     for m in lines:
         text = lines_manifest_text(doc, m["key"])
@@ -263,6 +309,8 @@ def make_plan(cfg: ScanConfig, results_dir="results") -> Plan:
         table_file=table_file, plan_hash=plan_hash, invalid=dict(index.invalid),
         chunk_size=size or cfg.points_per_job, lines_ids=tuple(m["key"] for m in lines),
         chunk_seconds=chunk_seconds, sizing=tuple(sizing), texts=texts, manifests=manifests, remade=remade,
+        states={m: k for m, (k, _) in states.items()},
+        chunk_models={cid: (pts[0][0],) for cid, pts in new_chunks},
     )
 
 

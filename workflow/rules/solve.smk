@@ -4,6 +4,8 @@
 rule solve_chunk:
     input:
         manifest=lambda wc: str(PLAN.chunk_manifest(wc.chunk)),
+        # the state the model's new chunks share (the emd atlas), built once by build_state
+        shared=lambda wc: [str(p) for p in PLAN.chunk_states(wc.chunk)],
     output:
         segment="results/{scan}/segments/{chunk}.parquet",
         seal="results/{scan}/segments/{chunk}.json",
@@ -16,3 +18,19 @@ rule solve_chunk:
         runtime=lambda wc, attempt: chunk_runtime(wc.chunk, attempt),
     shell:
         "{PY} -m holoscan solve-chunk {input.manifest} --out {output.segment} --log {log} > {log} 2>&1"
+
+
+# What all new chunks of one model share and is costly to build (for emd with method atlas: the
+# atlas of its horizon-data map), built once for all of them; adopting it changes no number.
+rule build_state:
+    input:
+        manifest=lambda wc: str(PLAN.state_manifest_file(wc.key)),
+    output:
+        "results/{scan}/shared/{key}.npz",
+    log:
+        "logs/build_state/{scan}/{key}.log",
+    wildcard_constraints:
+        key="[0-9a-f]{16}",
+    priority: 10
+    shell:
+        "{PY} -m holoscan build-state {input.manifest} --out {output} > {log} 2>&1"

@@ -151,7 +151,7 @@ def _emd_family(model, settings, Ts, mus):
     V, f = model.couplings()
     sh = shooter_for(model, V, f)
     t0, cnt = time.perf_counter(), Counters()
-    method = "fold of mu/T along the unsourced family (bounded minimisation in phi0)"
+    method = "fold of mu/T along the unsourced family (batched Chebyshev refinement in phi0)"
     try:
         found = folds(sh, settings.shoot_settings(), cnt)
     except (ArithmeticError, ValueError, RuntimeError) as exc:

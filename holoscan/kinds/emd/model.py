@@ -22,6 +22,7 @@ Units: any energy unit E, as for ``rn``.
 """
 from __future__ import annotations
 
+import json
 import math
 from dataclasses import dataclass
 
@@ -159,6 +160,43 @@ class EMDModel(ModelKind):
         if self.scalar_free():
             return [], []
         return locate_emd_lines(self, settings, Ts, mus)
+
+    def _atlas_solver(self, settings: SolverSettings):
+        """The batch solver (and so the atlas) ``solve_many`` uses with these settings, or None."""
+        if settings.method == "auto":
+            settings = settings.with_method(self.default_method)
+        if settings.method != "atlas" or self.scalar_free():
+            return None
+        V, f = self.couplings()
+        return batch_solver(self, shooter_for(self, V, f), settings)
+
+    def shares_state(self, settings: SolverSettings = SolverSettings()) -> bool:
+        """Method ``atlas`` with a dynamical scalar: the atlas is shared."""
+        method = self.default_method if settings.method == "auto" else settings.method
+        return method == "atlas" and not self.scalar_free()
+
+    def shared_state(self, targets, settings: SolverSettings = SolverSettings()) -> dict | None:
+        """The atlas cells that the roots of all ``targets`` need (built here, once), as arrays."""
+        solver = self._atlas_solver(settings)
+        if solver is None or not len(targets):
+            return None
+        T, mu = (np.array([t[k] for t in targets], dtype=float) for k in (0, 1))
+        solver.roots(T, mu)
+        return {**solver.map.atlas.state(), "made_for": np.array(self._fingerprint(solver.settings))}
+
+    def _fingerprint(self, settings: SolverSettings) -> str:
+        """What an atlas depends on: the model's physics (not its id) and the solver settings."""
+        spec = {k: v for k, v in self.spec().items() if k != "id"}
+        return json.dumps({"model": spec, "solver": settings.canonical()}, sort_keys=True)
+
+    def adopt_shared_state(self, state: dict, settings: SolverSettings = SolverSettings()) -> None:
+        """Adopt atlas cells built elsewhere (same model and settings; numbers unchanged)."""
+        solver = self._atlas_solver(settings)
+        if solver is None:
+            return
+        if str(state.get("made_for", "")) != self._fingerprint(solver.settings):
+            raise ValueError("atlas state made with other settings or for another model")
+        solver.map.atlas.adopt(state)
 
     @classmethod
     def unit_facts(cls, block: dict, d: int) -> dict:
