@@ -20,6 +20,12 @@ from ..point import resolve_method
 from ..settings import SolverSettings
 from .grid import grid_points
 
+#: points per job when the config gives none: for a kind solved point by point, and for a batched
+#: kind with a shared state (its atlas is built once by its own job; a chunk then costs little more
+#: than its points' verification shots, so few large chunks are near-best: a 400-point scan is one
+#: job, a 3,600-point one four, measured in bench/scan_onecharge.py)
+POINTS_PER_JOB = 200
+BATCHED_POINTS_PER_JOB = 1000
 #: keys of a model block that belong to the scan, not to the model kind
 SCAN_MODEL_KEYS = ("grid", "solver", "points_per_job")
 
@@ -157,12 +163,14 @@ def validate_scan_config(doc, schema: dict | None = None) -> ScanConfig:
             pts = grid_points(doc["grid"], "grid")
         else:
             raise InputError(f"{key}.grid", None, "no grid: give a top-level 'grid' or one in the model block")
-        plans.append(ModelPlan(model, settings, tuple(pts), int(block.get("points_per_job", doc.get("points_per_job", 200))),
+        default = BATCHED_POINTS_PER_JOB if model.batched and model.shares_state(settings) else POINTS_PER_JOB
+        plans.append(ModelPlan(model, settings, tuple(pts),
+                               int(block.get("points_per_job", doc.get("points_per_job", default))),
                                "points_per_job" in block))
     return ScanConfig(
         scan=doc["scan"],
         models=tuple(plans),
-        points_per_job=int(doc.get("points_per_job", 200)),
+        points_per_job=int(doc.get("points_per_job", POINTS_PER_JOB)),
         max_jobs=int(doc.get("max_jobs", 1000)),
         raw=doc,
         job_minutes=float(doc["job_minutes"]) if "job_minutes" in doc else None,

@@ -1,0 +1,133 @@
+"""The whole workflow against the plain per-point method, side by side in one run, at default settings.
+
+    python bench/scan_onecharge.py [--n 60] [--n-small 20] [--sample 30]
+
+The model is the one-charge black hole (an unsourced ``emd`` model with a closed form), on
+``T`` in linspace(0.4, 2, n) x ``mu/T`` in linspace(0, 2, n) (every branch of every target). Two
+scans, each in a fresh temporary folder with a copy of ``Snakefile`` and ``workflow/`` and nothing
+but the model and its grid in the config (no ``points_per_job``, no solver block):
+
+1. ``n x n`` targets (default 3,600), everything: plan, shared atlas, chunks, lines, tables,
+   figures, provenance (``snakemake --cores 2``);
+2. ``n_small x n_small`` targets (default 400), the same.
+
+The plain reference is ``holoscan.solve_point`` with method ``shooting`` (one targeted solve per
+point, no atlas) in this process, on every ``--sample``-th target of the large grid (its rate,
+points per second, is what is compared; it does not depend on which targets are timed beyond
+their spread over the grid). Accuracy: the largest relative error of ``s`` over ``ok`` rows of
+both against the closed form (tests/reference/onecharge.py, Gubser 1998; Cvetic & Gubser 1999).
+
+Prints the rates, the ratios, the errors and the workflow's per-rule wall times from Snakemake's
+log. Machine load distorts the ratios; the load average is printed.
+"""
+from __future__ import annotations
+
+import argparse
+import os
+import re
+import shutil
+import subprocess
+import sys
+import tempfile
+import time
+from datetime import datetime
+from pathlib import Path
+
+import numpy as np
+import pyarrow.parquet as pq
+import yaml
+
+REPO = Path(__file__).resolve().parents[1]
+sys.path.insert(0, str(REPO))
+sys.path.insert(0, str(REPO / "tests"))
+
+from reference import onecharge as oc  # noqa: E402
+
+from holoscan import SolverSettings, model_from_block, solve_point  # noqa: E402
+
+MODEL = {"id": "onecharge", "kind": "emd", "kappa_sq": 1.0,
+         "V": "-(8*exp(phi/sqrt(6)) + 4*exp(-2*phi/sqrt(6)))", "f": "exp(-4*phi/sqrt(6))", "source": False}
+
+
+def targets(n):
+    return [(float(T), float(x * T)) for T in np.linspace(0.4, 2, n) for x in np.linspace(0, 2, n)]
+
+
+def s_error(T, mu, s):
+    refs = oc.points(T, mu)
+    return min(abs(s - r["s"]) / r["s"] for r in refs) if refs else np.inf
+
+
+def run_workflow(n):
+    tmp = Path(tempfile.mkdtemp(prefix="holoscan-bench-"))
+    try:
+        shutil.copy(REPO / "Snakefile", tmp / "Snakefile")
+        for d in ("workflow", "profiles"):
+            shutil.copytree(REPO / d, tmp / d)
+        grid = {"T": {"min": 0.4, "max": 2.0, "num": n}, "mu_over_T": [float(x) for x in np.linspace(0, 2, n)]}
+        (tmp / "config").mkdir()
+        (tmp / "config" / "config.yaml").write_text(yaml.safe_dump({"scan": "bench", "models": [{**MODEL, "grid": grid}]}))
+        env = {**os.environ, "PYTHONPATH": f"{REPO}{os.pathsep}{os.environ.get('PYTHONPATH', '')}"}
+        t0 = time.perf_counter()
+        p = subprocess.run([sys.executable, "-m", "snakemake", "--cores", "2"], cwd=tmp, env=env,
+                           capture_output=True, text=True)
+        wall = time.perf_counter() - t0
+        if p.returncode:
+            raise RuntimeError(p.stdout[-3000:] + p.stderr[-3000:])
+        t = pq.read_table(tmp / "results" / "bench" / "points.parquet").to_pandas()
+        ok = t[t.status == "ok"]
+        err = max(s_error(r.T, r.mu, r.s) for r in ok.itertuples())
+        return wall, len(t), len(ok), err, rule_times(tmp)
+    finally:
+        shutil.rmtree(tmp, ignore_errors=True)
+
+
+def rule_times(ws):
+    """Wall seconds per rule (sum over its jobs) from Snakemake's log."""
+    log = sorted((ws / ".snakemake" / "log").glob("*.log"))[-1].read_text().splitlines()
+    stamp, started, out = None, {}, {}
+    for line in log:
+        m = re.match(r"\[(\w{3} \w{3}\s+\d+ [\d:]+ \d{4})\]", line)
+        if m:
+            stamp = datetime.strptime(m.group(1), "%a %b %d %H:%M:%S %Y")
+            continue
+        m = re.match(r"\s*(?:local)?rule (\w+):", line)
+        if m:
+            started.setdefault(m.group(1), []).append(stamp)
+        m = re.match(r"Finished jobid: \d+ \(Rule: (\w+)\)", line)
+        if m and started.get(m.group(1)):
+            out[m.group(1)] = out.get(m.group(1), 0.0) + (stamp - started[m.group(1)].pop(0)).total_seconds()
+    return out
+
+
+def plain_rate(n, sample):
+    m = model_from_block(MODEL)
+    pts = targets(n)[::sample]
+    st = SolverSettings(method="shooting")
+    t0 = time.perf_counter()
+    rows = [(T, mu, r) for T, mu in pts for r in solve_point(m, T, mu, st)]
+    dt = time.perf_counter() - t0
+    ok = [(T, mu, r) for T, mu, r in rows if r.status == "ok"]
+    return len(pts) / dt, dt, len(pts), max(s_error(T, mu, r.s) for T, mu, r in ok)
+
+
+def main():
+    ap = argparse.ArgumentParser()
+    ap.add_argument("--n", type=int, default=60)
+    ap.add_argument("--n-small", type=int, default=20)
+    ap.add_argument("--sample", type=int, default=30)
+    a = ap.parse_args()
+    print(f"load average before: {os.getloadavg()}")
+    rate, dt, npts, perr = plain_rate(a.n, a.sample)
+    print(f"plain per-point shooting: {npts} targets in {dt:.1f} s = {rate:.3f} targets/s; worst s error {perr:.2e}")
+    for n in (a.n, a.n_small):
+        wall, rows, ok, err, rules = run_workflow(n)
+        wrate = n * n / wall
+        print(f"workflow {n} x {n} = {n * n} targets: {wall:.1f} s (everything) = {wrate:.2f} targets/s, "
+              f"{wrate / rate:.1f} x the plain rate; {rows} rows, {ok} ok; worst s error {err:.2e}")
+        print("  per rule (s, summed over jobs): " + ", ".join(f"{k} {v:.0f}" for k, v in sorted(rules.items())))
+    print(f"load average after: {os.getloadavg()}")
+
+
+if __name__ == "__main__":
+    main()
