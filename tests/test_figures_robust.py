@@ -150,7 +150,7 @@ def test_a_figure_that_cannot_be_drawn_becomes_a_listed_placeholder(tmp_path, mo
     assert "could not be drawn" in man["captions"]["figures/rn-eos"]
     _valid_png(root / "figures/rn-eos.png")
     assert (root / "figures/rn-eos.pdf").read_bytes()[:5] == b"%PDF-"
-    assert not list((root / "figures").glob("*.tmp"))
+    assert not list((root / "figures").glob(".*.tmp-*"))  # no temporary file (store.temporary_name) left
     # the other figures are drawn as usual
     assert "figures/rn-phase-diagram" in man["captions"] and "could not" not in man["captions"]["figures/rn-phase-diagram"]
 

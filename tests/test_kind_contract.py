@@ -21,6 +21,7 @@ from pathlib import Path
 
 import pyarrow.parquet as pq
 import pytest
+from workflow_helpers import run, workspace
 
 import holoscan
 from holoscan.errors import InputError
@@ -29,8 +30,6 @@ from holoscan.kinds.base import ModelKind
 from holoscan.point import resolve_method, solve_point
 from holoscan.scan.identity import PHYSICS, physics_files
 from holoscan.settings import SolverSettings
-
-from workflow_helpers import run, workspace
 
 PKG = Path(holoscan.__file__).resolve().parent
 KIND_FILE = Path(__file__).resolve().parent / "kinds" / "neutral_brane.py"
