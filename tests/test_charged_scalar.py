@@ -5,6 +5,7 @@ Reissner-Nordstrom closed form, the second-order transition and the first law on
 Probe conventions: Hartnoll, Herzog & Horowitz 2008, Phys. Rev. Lett. 101, 031601 ("HHH PRL");
 backreaction: Hartnoll, Herzog & Horowitz 2008, JHEP 12, 015 ("HHH JHEP").
 """
+import functools
 import itertools
 import math
 
@@ -270,6 +271,7 @@ def test_first_law_on_condensed_branch(kw):
     assert c.P_check == pytest.approx(c.P, rel=1e-9)
     hT, hm = 2e-3 * T, 2e-3 * mu
 
+    @functools.cache  # the four points at mu +- h, mu +- 2h serve both mu derivatives: each solved once
     def cond(T_, mu_):
         return branches(m, T_, mu_)["condensed"]
 
