@@ -17,6 +17,7 @@ from dataclasses import dataclass, replace
 import pytest
 
 from holoscan import RNModel, SolverSettings, Status, solve_point
+from holoscan.kinds.base import ModelKind
 from holoscan.phases.dominance import classify
 from holoscan.point import solve_points
 from holoscan.result import PointResult, checked, range_problems
@@ -107,7 +108,7 @@ def test_shooting_deep_in_temperature_is_ok_only_while_representable():
 # -- the rule for every model kind: a toy kind that returns whatever it is told ---------------------
 
 @dataclass
-class Toy:
+class Toy(ModelKind):
     """A model kind that returns one prepared row (or raises) at every target; d = 4."""
 
     fields: dict
@@ -136,6 +137,8 @@ class Toy:
 @dataclass
 class ToyBatch(Toy):
     """The same, solving many targets at once."""
+
+    batched = True
 
     def solve_many(self, targets, settings=None):
         return [[self._row(T, mu)] for T, mu in targets]
