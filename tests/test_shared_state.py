@@ -30,8 +30,8 @@ def _rows(model, targets, settings):
 def test_adopted_atlas_gives_the_same_rows_bit_for_bit():
     m = model_from_block(ONECHARGE)
     st = resolve_method(m, SolverSettings())
-    scan = [(float(T), float(x * T)) for T in np.linspace(0.5, 1.5, 6) for x in np.linspace(0.0, 1.9, 6)]
-    chunk = scan[7:19]
+    scan = [(float(T), float(x * T)) for T in np.linspace(0.5, 1.5, 4) for x in np.linspace(0.0, 1.9, 4)]
+    chunk = scan[5:11]
     clear_all()
     fresh = _rows(m, chunk, st)
     clear_all()

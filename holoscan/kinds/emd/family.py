@@ -35,8 +35,8 @@ def x_on_family(sh, phi0: float, u_guess: float, ss: ShootSettings, cnt: Counter
 
 #: nodes per refinement round, rounds, and the factor by which the bracket shrinks each round
 REFINE_NODES = 13
-REFINE_ROUNDS = 4
-REFINE_SHRINK = 6.0
+REFINE_ROUNDS = 3
+REFINE_SHRINK = 8.0
 
 
 def _extremum(sh, lo: float, hi: float, sign: float, ug, ss: ShootSettings, cnt: Counters) -> tuple[float, float]:
