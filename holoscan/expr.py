@@ -18,9 +18,10 @@ Security
 The text is never given to Python or to any general-purpose expression library: there is no
 ``eval``, ``exec``, ``compile`` or import of user text. A hand-written tokenizer accepts only the
 characters, numbers and names of the grammar above; a recursive-descent parser builds an immutable
-tree from a closed set of node types; evaluation walks that tree with numpy functions from a fixed
-table. Anything else is rejected with :class:`~holoscan.errors.InputError` before any evaluation,
-naming the key, the offending token and its 0-based character position. The work is bounded:
+tree from a closed set of node types; evaluation runs that tree, flattened into a list of steps,
+with numpy functions from a fixed table. Anything else is rejected with
+:class:`~holoscan.errors.InputError` before any evaluation, naming the key, the offending token
+and its 0-based character position. The work is bounded:
 at most 2000 characters, 1000 tokens and 50 levels of nesting (parentheses, calls, unary minus,
 exponents), literals of magnitude at most 1e6, constant sub-expressions folded at parse time
 must be finite, and :class:`ParsedCoupling` caps the work spent on its symbolic derivatives.
@@ -141,8 +142,6 @@ class Num(Expr):
     def _derive(self):
         return ZERO
 
-    def _eval(self, x, memo):
-        return self.value
 
     def __str__(self):
         return _fmt(self.value)
@@ -155,8 +154,6 @@ class Var(Expr):
     def _derive(self):
         return ONE
 
-    def _eval(self, x, memo):
-        return x
 
     def __str__(self):
         return "phi"
@@ -180,8 +177,6 @@ class Call(Expr):
     def _derive(self):
         return mul(_OUTER[self.fn](self), self.arg.derivative())
 
-    def _eval(self, x, memo):
-        return _NUMPY[self.fn](_ev(self.arg, x, memo))
 
     def __str__(self):
         return f"{self.fn}({self.arg})"
@@ -208,8 +203,6 @@ class Pow(Expr):
         return mul(self, add(mul(e.derivative(), call("log", b)),
                              mul(e, b.derivative(), pow_(b, MINUS_ONE))))
 
-    def _eval(self, x, memo):
-        return np.power(_ev(self.base, x, memo), _ev(self.exp, x, memo))
 
     def __str__(self):
         if _is_recip(self):
@@ -233,11 +226,6 @@ class Mul(Expr):
         fs = self.factors
         return add(*(mul(*fs[:i], f.derivative(), *fs[i + 1:]) for i, f in enumerate(fs) if not f._const))
 
-    def _eval(self, x, memo):
-        acc = _ev(self.factors[0], x, memo)
-        for f in self.factors[1:]:
-            acc = acc * _ev(f, x, memo)
-        return acc
 
     def __str__(self):
         c, rest = _split_coeff(self)
@@ -259,11 +247,6 @@ class Add(Expr):
     def _derive(self):
         return add(*(t.derivative() for t in self.terms))
 
-    def _eval(self, x, memo):
-        acc = _ev(self.terms[0], x, memo)
-        for t in self.terms[1:]:
-            acc = acc + _ev(t, x, memo)
-        return acc
 
     def __str__(self):
         out = []
@@ -447,22 +430,93 @@ def _signed(term) -> tuple[bool, str]:
 
 
 # -- evaluation ---------------------------------------------------------------------------------
-def _ev(node, x, memo):
-    value = memo.get(node)
-    if value is None:
-        value = memo[node] = node._eval(x, memo)
-    return value
+class _Program:
+    """Several trees flattened into one list of numpy steps, each shared node computed once.
+
+    The steps are closures over the fixed function table, taken in post-order; they perform the
+    same operations in the same order as a recursive walk of the trees would, without its per-node
+    dispatch and memo look-ups.
+    """
+
+    __slots__ = ("outputs", "size", "slots", "steps")
+
+    def __init__(self, nodes):
+        index: dict = {}
+        self.slots: list = []            # constants, filled once
+        self.steps: list = []            # (slot, step(registers))
+
+        def visit(node):
+            i = index.get(node)
+            if i is not None:
+                return i
+            kids = [visit(k) for k in node.children]
+            i = index[node] = len(index)
+            self.slots.append(node.value if isinstance(node, Num) else None)
+            if not isinstance(node, Num):
+                self.steps.append((i, _step(node, kids)))
+            return i
+
+        self.outputs = [visit(n) for n in nodes]
+        self.size = len(index)
+
+    def run(self, x) -> list:
+        r = list(self.slots)
+        for i, step in self.steps:
+            r[i] = x if step is None else step(r)
+        return [r[i] for i in self.outputs]
 
 
-def _evaluate(nodes, phi) -> list:
+def _step(node, kids):
+    """The closure that computes ``node`` from the registers of its children (None: phi itself)."""
+    if isinstance(node, Var):
+        return None
+    if isinstance(node, Call):
+        fn, (a,) = _NUMPY[node.fn], kids
+        return lambda r: fn(r[a])
+    if isinstance(node, Pow):
+        a, b = kids
+        return lambda r: np.power(r[a], r[b])
+    first, rest = kids[0], kids[1:]
+    if isinstance(node, Mul):
+        if len(rest) == 1:
+            (b,) = rest
+            return lambda r: r[first] * r[b]
+
+        def product(r):
+            acc = r[first]
+            for k in rest:
+                acc = acc * r[k]
+            return acc
+        return product
+    if len(rest) == 1:
+        (b,) = rest
+        return lambda r: r[first] + r[b]
+
+    def total(r):
+        acc = r[first]
+        for k in rest:
+            acc = acc + r[k]
+        return acc
+    return total
+
+
+def _evaluate(nodes, phi, program: _Program | None = None) -> list:
     """Evaluate several trees at ``phi`` sharing common sub-expressions; shapes follow ``phi``."""
     x = np.asarray(phi, dtype=float)
-    memo = {}
+    if program is None:
+        program = _Program(nodes)
     with np.errstate(all="ignore"):
-        values = [np.broadcast_to(np.asarray(_ev(n, x, memo), dtype=float), x.shape) for n in nodes]
+        values = program.run(x)
     if x.ndim == 0 and not isinstance(phi, np.ndarray):
         return [float(v) for v in values]
-    return [np.array(v) for v in values]
+    out, seen = [], set()
+    for v in values:                     # fresh arrays as they are; phi, constants and repeats copied
+        if not (type(v) is np.ndarray and v.shape == x.shape and v.dtype == float and v is not x
+                and id(v) not in seen):
+            v = np.array(np.broadcast_to(np.asarray(v, dtype=float), x.shape))
+        seen.add(id(v))
+        out.append(v)
+    return out
 
 
 # -- tokenizer ----------------------------------------------------------------------------------
@@ -744,6 +798,8 @@ class ParsedCoupling:
         self.expr = parse(text, key)
         chain = self._chain()
         self._d1, self._d2 = chain[1], chain[2]
+        self._program1 = _Program((self.expr, self._d1))
+        self._program2 = _Program((self.expr, self._d1, self._d2))
         self._at0 = np.array(_evaluate(chain, 0.0))
         fact = np.array([math.factorial(j) for j in range(self.DEGREE + 1)], dtype=float)
         self._c1 = self._at0[1:self.DEGREE + 2] / fact
@@ -771,7 +827,7 @@ class ParsedCoupling:
 
     def derivs(self, phi):
         """``(f, f', f'')`` at ``phi`` (scalar -> floats, array -> arrays of the same shape)."""
-        v, d1, d2 = _evaluate((self.expr, self._d1, self._d2), phi)
+        v, d1, d2 = _evaluate((), phi, self._program2)
         if self._series:
             x = np.asarray(phi, dtype=float)
             near = np.abs(x) < self.SERIES_RADIUS
@@ -783,7 +839,7 @@ class ParsedCoupling:
 
     def derivs1(self, phi):
         """``(f, f')`` only: what the field equations need, at two thirds of the cost of :meth:`derivs`."""
-        v, d1 = _evaluate((self.expr, self._d1), phi)
+        v, d1 = _evaluate((), phi, self._program1)
         if self._series:
             x = np.asarray(phi, dtype=float)
             near = np.abs(x) < self.SERIES_RADIUS
