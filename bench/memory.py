@@ -1,4 +1,4 @@
-"""Peak resident memory (RSS) of one chunk job and of assembling a 10^6-row points table.
+"""Peak resident memory (RSS) of one chunk job and of assembling a 10^7-row points table.
 
 Run from a clean clone, with the project's environment active, in one command:
 
@@ -24,8 +24,8 @@ this checkout first on ``PYTHONPATH``):
       plan functions, so it measures whatever the code is when it runs.
 
 2. assembly, ``python -m holoscan assemble PLAN --out points.parquet --summary ... --summary-text
-   ...`` (the arguments of ``workflow/rules/assemble.smk``), of ``--rows`` rows (default 10^6) from
-   ``--segments`` sealed segments (default 250 of 4,000 rows). The plan is real: a config of two
+   ...`` (the arguments of ``workflow/rules/assemble.smk``), of ``--rows`` rows (default 10^7) from
+   ``--segments`` sealed segments (default 2,500 of 4,000 rows). The plan is real: a config of two
    invented ``rn`` bench models (d = 4 closed form and d = 3 shooting, half of the rows each, one
    branch per point) planned by ``plan_scan``, which writes the manifests and
    ``plan/table-<hash>.json``. Each manifest is then turned into a segment of synthetic rows
@@ -45,11 +45,11 @@ memory a child started by fork/vfork would otherwise carry into its high-water m
 the figure is the wrapper's own RSS (about 10 MiB). The wrapper also samples the child's VmRSS from
 ``/proc`` every 0.05 s, to show when the peak happens and whether RSS grows during a chunk.
 
-Bars: a chunk job at the default chunk size under 1 GiB; the 10^6-row assembly under 4 GiB. The
+Bars: a chunk job at the default chunk size under 1 GiB; the 10^7-row assembly under 1 GiB. The
 import baseline (``python -m holoscan --version``) is printed for reference.
 
 Options: ``--chunk-points N`` (rn4-demo chunk, default 400), ``--emd-points N`` (dilaton-demo chunk,
-default 12), ``--rows N`` (default 1,000,000), ``--segments N`` (default 250), ``--seed N``,
+default 12), ``--rows N`` (default 10,000,000), ``--segments N`` (default 2,500), ``--seed N``,
 ``--skip emd|rn4|assemble`` (repeatable), ``--workdir DIR`` (the temporary folder is created inside
 it instead of the system's temporary folder), ``--keep`` (do not delete the temporary folder; its
 path is printed). Default run: about 4 minutes on 2 cores, most of it the dilaton points.
@@ -91,7 +91,7 @@ CONFIG = REPO / "config" / "config.yaml"
 SCHEMA = REPO / "workflow" / "schemas" / "config.schema.yaml"
 MIB = 1024.0  # KiB per MiB
 CHUNK_BAR_MIB = 1024.0
-ASSEMBLY_BAR_MIB = 4096.0
+ASSEMBLY_BAR_MIB = 1024.0
 CHUNK_BOX = {"T": (0.17, 0.27), "mu": (0.0, 1.0)}
 DEFAULT_EMD_POINTS = 400  # the default chunk size (top-level points_per_job of config/config.yaml)
 
@@ -227,7 +227,8 @@ def assembly_config(n_rows: int, n_segments: int) -> dict:
         n_T, n_mu = factor(n)
         models.append({**block, "grid": {"T": axis(0.05, 2.0, n_T, "log"), "mu": axis(-3.0, 3.0, n_mu)}})
     return {"scan": "mem-assemble", "models": models, "solver": {"method": "auto"},
-            "points_per_job": math.ceil(n_rows / n_segments), "max_jobs": max(1000, 2 * n_segments)}
+            "points_per_job": math.ceil(n_rows / n_segments), "max_jobs": max(1000, 2 * n_segments),
+            "max_points": max(1_000_000, n_rows)}
 
 
 def _iso(base: datetime, seconds: np.ndarray) -> list[str]:
@@ -379,8 +380,8 @@ def main() -> int:
                     help=f"points of the rn4-demo chunk (default {chunk_default}, the config's points_per_job)")
     ap.add_argument("--emd-points", type=int, default=DEFAULT_EMD_POINTS,
                     help=f"points of the dilaton-demo chunk (default {DEFAULT_EMD_POINTS}, solved in one batch)")
-    ap.add_argument("--rows", type=int, default=1_000_000, help="rows of the assembled table (default 10^6)")
-    ap.add_argument("--segments", type=int, default=250, help="sealed segments holding them (default 250)")
+    ap.add_argument("--rows", type=int, default=10_000_000, help="rows of the assembled table (default 10^7)")
+    ap.add_argument("--segments", type=int, default=2500, help="sealed segments holding them (default 2,500)")
     ap.add_argument("--seed", type=int, default=20240611, help="seed of the synthetic data")
     ap.add_argument("--skip", action="append", choices=["rn4", "emd", "assemble"], default=[])
     ap.add_argument("--workdir", type=Path, default=None, help="make the temporary folder inside this one")

@@ -65,7 +65,11 @@ def test_every_declared_figure_is_written_and_valid(scan):
     names = figure_files(MODELS)
     assert len(names) == 2 * (2 + 3 + 1)  # png+pdf of: 2 rn, 3 charged-scalar, 1 convergence
     on_disk = {p.relative_to(root).as_posix() for p in (root / "figures").iterdir()}
-    assert on_disk == set(names) | {MANIFEST}  # nothing missing, nothing left over (no .tmp files)
+    assert on_disk == set(names) | {MANIFEST, "figures/.cache"}  # nothing missing, nothing left over
+    # the cache of drawn model figures: per figure its png, pdf and caption record, no .tmp files
+    cached = sorted(p.name.split(".")[0] + "." + p.name.split(".")[-1] for p in (root / "figures/.cache").iterdir())
+    stems = [n[len("figures/"):-4] for n in names if n.endswith(".png") and "convergence" not in n]
+    assert cached == sorted(f"{s}.{e}" for s in stems for e in ("json", "pdf", "png"))
     for n in names:
         p = root / n
         if n.endswith(".png"):
@@ -198,6 +202,38 @@ def test_failed_point_is_marked_and_other_figures_are_byte_identical(scan, tmp_p
         assert (copy / n).read_bytes() == (root / n).read_bytes(), n
     for n in ("figures/rn-phase-diagram.png", "figures/convergence.png"):
         assert (copy / n).read_bytes() != (root / n).read_bytes(), n
+
+
+def test_figures_of_untouched_models_are_copied_not_drawn(scan, tmp_path):
+    # a figure is a function of its model's rows, config block and the drawing code (common practice,
+    # no source): run again on unchanged tables, every model figure comes from figures/.cache with the
+    # same bytes; change model rn's rows, and only rn's figures (and the all-model convergence map)
+    # are drawn again
+    _, root = scan
+    copy = tmp_path / "again"
+    shutil.copytree(root, copy)
+    assert any((copy / "figures" / ".cache").iterdir())
+    n_model = len(figure_files(MODELS)) // 2 - 1          # figures per model, without the convergence map
+
+    def run():
+        p = subprocess.run([sys.executable, "-m", "holoscan", "figures", str(copy)], capture_output=True,
+                           text=True, timeout=300)
+        assert p.returncode == 0, p.stderr
+        return p.stderr
+
+    assert f"1 figure(s) drawn, {n_model} of untouched models copied" in run()
+    for n in figure_files(MODELS):
+        assert (copy / n).read_bytes() == (root / n).read_bytes(), n
+    pts = pq.read_table(copy / "points.parquet")
+    df = pts.to_pandas()
+    for col in ("P", "P_hat", "s", "s_hat", "chi2_hat"):
+        df.loc[(df["model_id"] == "rn") & (df["T"] == 1.0), col] *= 1.5
+    pq.write_table(pa.Table.from_pandas(df, schema=pts.schema, preserve_index=False), copy / "points.parquet")
+    n_rn = len(figure_files([("rn", "rn")])) // 2 - 1
+    assert f"{1 + n_rn} figure(s) drawn, {n_model - n_rn} of untouched models copied" in run()
+    for n in figure_files([("hhh", "charged-scalar")])[:-2]:
+        assert (copy / n).read_bytes() == (root / n).read_bytes(), n
+    assert (copy / "figures/rn-eos.png").read_bytes() != (root / "figures/rn-eos.png").read_bytes()
 
 
 def test_missing_points_table_is_an_error(tmp_path):

@@ -117,3 +117,31 @@ def test_audit_prints_the_row_and_recomputes(tmp_path, run_cli):
     assert r.returncode == 2 and "nearest grid point" in r.stderr and "0.6" in r.stderr
     r = run_cli("audit", out, "--model", "zz", "--T", 0.6, "--mu", 0.0)
     assert r.returncode == 2 and "--model = 'zz'" in r.stderr and "Traceback" not in r.stderr
+
+
+def test_bucketed_assembly_equals_one_bucket_and_leaves_nothing(tmp_path, monkeypatch):
+    # assembly streams segments through (model, T) buckets and spill files (bounded memory); the
+    # sort key (model, T, mu, branch) is unique, so the table must not depend on the bucket size or
+    # on how often the spill buffers are flushed (common practice, no source)
+    import holoscan.scan.assemble as asm
+
+    cfg = {**CFG, "grid": {"T": {"min": 0.2, "max": 1.0, "num": 7}, "mu": {"min": -1.0, "max": 1.0, "num": 5}}}
+    plan, out, summary = build(tmp_path, cfg)
+    one = pq.read_table(out)
+    assert pq.ParquetFile(out).metadata.num_row_groups == 2  # one bucket per model
+    monkeypatch.setattr(asm, "BUCKET_POINTS", 4)
+    monkeypatch.setattr(asm, "SPILL_ROWS", 3)
+    again = tmp_path / "again.parquet"
+    summary2 = assemble(plan.table_file, again, tmp_path / "s2.json")
+    many = pq.read_table(again)
+    assert pq.ParquetFile(again).metadata.num_row_groups > 5
+    for name in many.column_names:
+        assert many[name].equals(one[name]), name
+    assert summary2 == summary
+    # rows sorted by model (config order), T, mu, branch
+    df = many.to_pandas()
+    rank = df["model_id"].map({"a": 0, "s": 1})
+    keys = list(zip(rank, df["T"], df["mu"], df["branch"]))
+    assert keys == sorted(keys) and len(set(keys)) == len(keys)
+    leftovers = [p.name for p in tmp_path.iterdir() if p.name.startswith(".")]
+    assert leftovers == []

@@ -74,5 +74,27 @@ def point_key(context: str, T: float, mu: float) -> str:
     return h.hexdigest()[:20]
 
 
+def point_keys(context: str, points) -> list[str]:
+    """:func:`point_key` of every ``(T, mu)`` in ``points``, hashing the shared context once."""
+    base = hashlib.sha256(context.encode())
+    shown: dict = {}                     # repr of each nonzero grid value, formatted once
+
+    def text(x) -> str:
+        t = shown.get(x)
+        if t is None:
+            t = repr(float(x))
+            if x:                        # 0.0 == -0.0 as dict keys, but their reprs differ
+                shown[x] = t
+        return t
+
+    out = []
+    for T, mu in points:
+        t, m = text(T), text(mu)
+        h = base.copy()
+        h.update(f"|{t}|{m}".encode())
+        out.append(h.hexdigest()[:20])
+    return out
+
+
 def config_hash(canonical: str) -> str:
     return hashlib.sha256(canonical.encode()).hexdigest()[:16]

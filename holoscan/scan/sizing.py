@@ -65,17 +65,16 @@ def runtime_minutes(expected_seconds: float, attempt: int = 1) -> int:
     return int(max(MIN_RUNTIME_MINUTES, math.ceil(RUNTIME_SAFETY * expected_seconds / 60.0)) * attempt)
 
 
-def measured(table, keys_by_model: dict) -> dict:
-    """Costs entries from a points table (Arrow; columns model_id, chunk_id, point_key, start_time,
-    end_time): per model, the time its chunks spent on it (first start to last end of its points in
-    each chunk: solves, batch set-up and bookkeeping) divided by its number of points."""
+def time_spent(table, into: dict | None = None) -> dict:
+    """Add each model's ``[seconds, points]`` in ``table`` to ``into`` (a new dict by default). The
+    sums are over (model, chunk) groups, so the tables of different chunks may be added one by one."""
     import pyarrow.compute as pc
 
+    spent = {} if into is None else into
     t = table.select(["model_id", "chunk_id", "point_key", "start_time", "end_time"])
     t = t.filter(pc.invert(pc.or_(pc.is_null(t["start_time"]), pc.is_null(t["end_time"]))))
     g = t.group_by(["model_id", "chunk_id"]).aggregate(
         [("start_time", "min"), ("end_time", "max"), ("point_key", "count_distinct")])
-    spent: dict = {}
     for m, a, b, n in zip(*(g[c].to_pylist() for c in ("model_id", "start_time_min", "end_time_max",
                                                          "point_key_count_distinct"))):
         try:
@@ -85,5 +84,12 @@ def measured(table, keys_by_model: dict) -> dict:
         tot = spent.setdefault(m, [0.0, 0])
         tot[0] += max(dt, 0.0)
         tot[1] += n
+    return spent
+
+
+def costs_from(spent: dict, keys_by_model: dict) -> dict:
+    """Costs entries from the sums of :func:`time_spent`: per model, the time its chunks spent on it
+    (first start to last end of its points in each chunk: solves, batch set-up and bookkeeping)
+    divided by its number of points."""
     return {keys_by_model[m]: {"model_id": m, "seconds_per_point": sec / n, "points": n, "source": "measured"}
             for m, (sec, n) in spent.items() if m in keys_by_model and n}

@@ -17,15 +17,25 @@ the folder is touched (only files under ``figures/`` that the earlier manifest n
 
 The figures are independent: with ``jobs > 1`` they are drawn by that many forked worker processes
 (each inherits the tables already read); the files and their bytes do not depend on ``jobs``.
+
+Figures of untouched models are not drawn again. Each model's figure has a *stamp*: the sha256 of
+the figure's name and kind, the model's config block and its rows in the four tables, the scan's
+name, code hash and version, the notes on unreadable tables and the sources of this package. A
+drawn figure is copied, with its caption, into ``figures/.cache/`` under its stamp; when a later
+run finds the same stamp there, it copies the files back instead of drawing (the bytes are the
+same: the drawing is a function of what the stamp covers). The convergence map shows every model
+and is always drawn. Only the newest entry per figure is kept.
 """
 from __future__ import annotations
 
+import hashlib
 import json
 import multiprocessing
+import shutil
 import sys
 from pathlib import Path
 
-from ..store import atomic_write_text
+from ..store import atomic_path, atomic_write_text
 from . import FORMATS, MANIFEST, model_figure_stems
 from .data import ScanTables, load_scan
 
@@ -70,6 +80,77 @@ def _draw(task) -> dict:
                 "caption": f"Placeholder: the {heading} could not be drawn from the tables ({reason})."}
 
 
+CACHE = "figures/.cache"
+
+
+def _sources_hash() -> str:
+    h = hashlib.sha256()
+    for p in sorted(Path(__file__).parent.glob("*.py")):
+        h.update(p.name.encode() + b"\0" + p.read_bytes())
+    return h.hexdigest()
+
+
+def stamp(tables: ScanTables, what: str, mid: str, kind: str, sources: str) -> str:
+    """What one model's figure is drawn from, hashed (see the module docstring)."""
+    import pandas as pd
+
+    h = hashlib.sha256()
+    head = [sources, what, mid, kind, tables.scan, tables.code_hash, tables.package_version,
+            tables.notes, tables.block(mid)]
+    h.update(json.dumps(head, sort_keys=True, default=str).encode())
+    for name in ("points", "phases", "transitions", "critical"):
+        rows = tables.rows(name, mid)
+        h.update(f"\0{name}\0{list(rows.columns)}\0{len(rows)}\0".encode())
+        if len(rows):
+            h.update(pd.util.hash_pandas_object(rows.astype(str), index=False).to_numpy().tobytes())
+    return h.hexdigest()[:24]
+
+
+def _from_cache(task, key: str) -> dict | None:
+    """The cached result of ``task`` under ``key``, copied into place; None when not cached."""
+    stem = task[1]
+    base = _TABLES.root / CACHE / f"{Path(stem).name}.{key}"
+    try:
+        record = json.loads(base.with_name(base.name + ".json").read_text())
+        files = []
+        for ext in FORMATS:
+            path = _TABLES.root / f"{stem}.{ext}"
+            with atomic_path(path, durable=False) as tmp:
+                shutil.copyfile(base.with_name(base.name + f".{ext}"), tmp)
+            files.append(str(path))
+    except (OSError, ValueError):
+        return None
+    return {"stem": stem, "files": files, "caption": record.get("caption", ""),
+            "placeholder": record.get("placeholder"), "cached": True}
+
+
+def _to_cache(done: dict, key: str) -> None:
+    """Keep a drawn figure under ``key`` (replacing older entries of the same figure)."""
+    folder = _TABLES.root / CACHE
+    name = Path(done["stem"]).name
+    try:
+        folder.mkdir(parents=True, exist_ok=True)
+        for old in folder.glob(f"{name}.*"):
+            if old.name.split(".")[len(name.split("."))] != key:
+                old.unlink(missing_ok=True)
+        for f in done["files"]:
+            ext = Path(f).suffix
+            with atomic_path(folder / f"{name}.{key}{ext}", durable=False) as tmp:
+                shutil.copyfile(f, tmp)
+        record = {"caption": done["caption"], "placeholder": done["placeholder"]}
+        atomic_write_text(folder / f"{name}.{key}.json", json.dumps(record, sort_keys=True), durable=False)
+    except OSError:
+        pass  # the cache only saves time
+
+
+def _draw_and_keep(task) -> dict:
+    """Draw ``task`` and, for a model's figure (with a stamp), keep it in the cache."""
+    done = _draw(task[:5])
+    if len(task) > 5:
+        _to_cache(done, task[5])
+    return done
+
+
 def previous_files(root: Path) -> list[str]:
     """Files listed by the manifest already in ``root/figures`` (relative to ``root``), keeping only
     names of files under ``figures/`` (never the manifest itself, never a path that leaves it)."""
@@ -100,17 +181,21 @@ def write_all(results_dir, models=None, jobs: int = 1) -> list[str]:
     _TABLES = load_scan(root)
     earlier = previous_files(root)
     models = list(models) if models is not None else _TABLES.models()
-    tasks = []
+    tasks, sources = [], _sources_hash()
     for mid, kind in models:
         for stem in model_figure_stems(mid, kind):
             what = stem.rsplit(f"{mid}-", 1)[1]
-            tasks.append((what, stem, mid, kind, None))
+            tasks.append((what, stem, mid, kind, None, stamp(_TABLES, what, mid, kind, sources)))
     tasks.append(("convergence", "figures/convergence", None, None, models))
-    if jobs > 1 and len(tasks) > 1:
-        with multiprocessing.get_context("fork").Pool(min(jobs, len(tasks))) as pool:
-            done = pool.map(_draw, tasks, chunksize=1)
+    done = [_from_cache(t, t[5]) if len(t) > 5 else None for t in tasks]
+    todo = [t for t, d in zip(tasks, done) if d is None]
+    if jobs > 1 and len(todo) > 1:
+        with multiprocessing.get_context("fork").Pool(min(jobs, len(todo))) as pool:
+            drawn = iter(pool.map(_draw_and_keep, todo, chunksize=1))
     else:
-        done = [_draw(t) for t in tasks]
+        drawn = iter([_draw_and_keep(t) for t in todo])
+    done = [d if d is not None else next(drawn) for d in done]
+    cached = sum(1 for d in done if d.get("cached"))
     written = [p for d in done for p in d["files"]]
     names = [Path(p).relative_to(root).as_posix() for p in written]
     removed = []
@@ -127,6 +212,8 @@ def write_all(results_dir, models=None, jobs: int = 1) -> list[str]:
                 "removed": removed}
     path = root / MANIFEST
     atomic_write_text(path, json.dumps(manifest, indent=2, sort_keys=True) + "\n", durable=False)
+    print(f"holoscan: {len(done) - cached} figure(s) drawn, {cached} of untouched models copied from "
+          f"{CACHE}", file=sys.stderr)
     for d in done:
         if d["placeholder"]:
             print(f"holoscan: {d['stem']} is a placeholder: {d['placeholder']}", file=sys.stderr)
