@@ -7,7 +7,6 @@ import math
 import sys
 
 from . import __version__
-from .config import load_models, pick_model, read_yaml
 from .errors import InputError
 from .kinds import KINDS
 from .point import check_target, resolve_method, solve_point
@@ -28,6 +27,8 @@ def _json_ready(obj):
 
 
 def cmd_point(args) -> int:
+    from .config import load_models, pick_model, read_yaml  # (YAML only for the commands that read one)
+
     check_target(args.T, args.mu, key_T="--T", key_mu="--mu")
     doc = read_yaml(args.config)
     if "scan" in doc:  # a scan config: its model blocks with their own solver settings
@@ -148,6 +149,8 @@ def cmd_phase_tables(args) -> int:
 
 
 def cmd_onset(args) -> int:
+    from .config import load_models, pick_model, read_yaml
+
     v_mu = check_target(1.0, args.mu, key_mu="--mu")[1]
     doc = read_yaml(args.config)
     models, settings = load_models(doc)
