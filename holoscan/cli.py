@@ -96,15 +96,14 @@ def cmd_build_state(args) -> int:
 
 def cmd_assemble(args) -> int:
     from .scan.assemble import AssemblyError, assemble, summary_text
+    from .scan.plan import read_table_header
 
     try:
         summary = assemble(args.plan, args.out, args.summary, args.summary_text)
     except AssemblyError as exc:
         print(f"holoscan: error: {exc}", file=sys.stderr)
         return 3
-    with open(args.plan) as fh:
-        scan = json.load(fh)["scan"]
-    print(summary_text(summary, scan), end="")
+    print(summary_text(summary, read_table_header(args.plan)["scan"]), end="")
     return 0
 
 

@@ -8,9 +8,10 @@ many row groups. Memory does not grow with the scan:
    (28 bytes a point); from the ranks and temperatures the rows are cut into *buckets*, ranges of
    (model, T) of at most :data:`BUCKET_POINTS` points each (all points of one model at one T stay
    in one bucket);
-2. each sealed segment is checked (checksum, code hash), reduced to the points the plan takes from
-   it, and its rows appended to their bucket's spill file (Parquet, in a hidden folder next to the
-   table, removed afterwards, also on failure);
+2. each sealed segment is checked (checksum, code hash) and reduced to the points the plan takes
+   from it; every :data:`SPILL_ROWS` rows, the segments read so far are cut by bucket and appended
+   to the buckets' spill files (Parquet, in a hidden folder next to the table, removed afterwards,
+   also on failure);
 3. each bucket in turn is read, sorted and appended to the table as row groups.
 
 The sort key (model, T, mu, branch) is unique, so the table does not depend on how the points were
@@ -42,8 +43,8 @@ from .tables import SCHEMA_VERSION, schema
 
 #: points per bucket: the most rows (times the branches per point) sorted in memory at once
 BUCKET_POINTS = 100_000
-#: rows a bucket's spill buffer holds before it is written out as a row group
-SPILL_ROWS = 16_384
+#: rows of segments read before they are spilled to their buckets (one row group per bucket)
+SPILL_ROWS = 100_000
 #: rows per row group of the table
 ROW_GROUP = 65_536
 
@@ -128,33 +129,30 @@ def _read_segment(path: Path, wanted: np.ndarray) -> pa.Table:
 
 
 class _Spill:
-    """Per bucket, a buffer of row tables and a Parquet spill file it is flushed to."""
+    """Per bucket a Parquet spill file; rows arrive in batches of many segments at once, so each
+    write is one row group per bucket and batch (no small tables held per bucket)."""
 
-    def __init__(self, folder: Path, n: int):
-        self.folder, self.buffers, self.sizes, self.writers = folder, [[] for _ in range(n)], [0] * n, {}
+    def __init__(self, folder: Path):
+        self.folder, self.writers = folder, {}
 
-    def add(self, b: int, t: pa.Table) -> None:
-        self.buffers[b].append(t)
-        self.sizes[b] += t.num_rows
-        if self.sizes[b] >= SPILL_ROWS:
-            self._flush(b)
-
-    def _flush(self, b: int) -> None:
-        if not self.buffers[b]:
-            return
-        t = pa.concat_tables(self.buffers[b])
-        w = self.writers.get(b)
-        if w is None:
-            w = self.writers[b] = pq.ParquetWriter(self.folder / f"{b}.parquet", t.schema)
-        w.write_table(t)
-        self.buffers[b], self.sizes[b] = [], 0
+    def add(self, t: pa.Table, bucket: np.ndarray) -> None:
+        """Append the rows of ``t`` to their buckets (``bucket``: one index per row)."""
+        order = np.argsort(bucket, kind="stable")
+        t, bucket = t.take(pa.array(order)), bucket[order]
+        cuts = np.flatnonzero(np.diff(bucket)) + 1
+        for lo, hi in zip(np.r_[0, cuts], np.r_[cuts, len(bucket)]):
+            b = int(bucket[lo])
+            w = self.writers.get(b)
+            if w is None:
+                w = self.writers[b] = pq.ParquetWriter(self.folder / f"{b}.parquet", t.schema)
+            w.write_table(t.slice(lo, hi - lo))
 
     def read(self, b: int) -> pa.Table | None:
         """All rows of bucket ``b`` (closing its spill file), or None when it has none."""
-        if b not in self.writers:
-            return pa.concat_tables(self.buffers[b]) if self.buffers[b] else None
-        self._flush(b)
-        self.writers.pop(b).close()
+        w = self.writers.pop(b, None)
+        if w is None:
+            return None
+        w.close()
         return pq.read_table(self.folder / f"{b}.parquet")
 
     def close(self) -> None:
@@ -182,9 +180,19 @@ def assemble(table_file, out_table, summary_json, summary_txt=None) -> dict:
     counts = {m: Counter() for m in model_order}
     out_table.parent.mkdir(parents=True, exist_ok=True)
     folder = Path(tempfile.mkdtemp(prefix=".assemble-", dir=out_table.parent))
-    spill = _Spill(folder, len(buckets))
+    spill = _Spill(folder)
+
+    def flush(batch: list) -> None:
+        if not batch:
+            return
+        t = pa.concat_tables(batch)
+        batch.clear()
+        rank = np.array([rank_of[m] for m in t["model_id"].to_pylist()], dtype=np.int64)
+        b = plan.bucket_of(rank, t["T"].to_numpy(zero_copy_only=False))
+        spill.add(t.append_column("_rank", pa.array(rank)), b)
+
     try:
-        missing = 0
+        missing, batch, held = 0, [], 0
         for chunk in sorted(plan.chunks):
             wanted = plan.wanted(chunk)
             t = _read_segment(root / "segments" / f"{chunk}.parquet", wanted)
@@ -192,12 +200,12 @@ def assemble(table_file, out_table, summary_json, summary_txt=None) -> dict:
             if t.num_rows and set(pc.unique(t["code_hash"]).to_pylist()) - {doc["code_hash"]}:
                 raise AssemblyError("segments from another physics-code version were selected")
             time_spent(t, spent)
-            rank = np.array([rank_of[m] for m in t["model_id"].to_pylist()], dtype=np.int64)
-            b = plan.bucket_of(rank, t["T"].to_numpy(zero_copy_only=False))
-            t = t.append_column("_rank", pa.array(rank))
-            for j in np.unique(b):
-                spill.add(int(j), t.filter(pa.array(b == j)))
-            del t
+            batch.append(t)
+            held += t.num_rows
+            if held >= SPILL_ROWS:
+                flush(batch)
+                held = 0
+        flush(batch)
         if missing:
             raise AssemblyError(f"{missing} point(s) missing from the segments; run the workflow again")
         with atomic_path(out_table) as tmp, pq.ParquetWriter(tmp, target) as writer:

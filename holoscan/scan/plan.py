@@ -94,6 +94,15 @@ def table_document_text(doc: dict) -> str:
     return head[:-1] + _ROWS_OPEN + body.replace("],[", "],\n[") + "\n]}\n"
 
 
+def read_table_header(path) -> dict:
+    """The table file's document without its rows (read from its first line only)."""
+    with open(path, "rb") as f:
+        first = f.readline()
+    if not first.endswith(_ROWS_OPEN.encode()):
+        raise ValueError(f"{path}: not a plan table file (rows not where they belong)")
+    return json.loads(first[:-len(_ROWS_OPEN)] + b"}")
+
+
 def read_table_rows(path, on_line=None):
     """``(header, rows)`` of a table file without loading it whole: ``header`` is the document
     without its rows, ``rows`` an iterator of ``[model_id, T, mu, point_key, chunk]``. ``on_line``,
