@@ -42,7 +42,8 @@ import numpy as np
 
 from .errors import InputError
 
-__all__ = ["FUNCTIONS", "MAX_CHARS", "MAX_DEPTH", "MAX_LITERAL", "MAX_TOKENS", "Expr", "ParsedCoupling", "parse"]
+__all__ = ["FUNCTIONS", "MAX_CHARS", "MAX_DEPTH", "MAX_LITERAL", "MAX_TOKENS", "Expr", "ParsedCoupling",
+           "check_param_name", "names_used", "parse"]
 
 MAX_CHARS = 2000
 MAX_TOKENS = 1000
@@ -548,7 +549,7 @@ class _Token:
         return {"num": "number ", "name": "name "}.get(self.kind, "") + repr(self.text)
 
 
-def _tokenize(text: str, fail) -> list[_Token]:
+def _tokenize(text: str, fail, params: dict | None = None) -> list[_Token]:
     tokens, i, n = [], 0, len(text)
     while i < n:
         ch = text[i]
@@ -560,7 +561,7 @@ def _tokenize(text: str, fail) -> list[_Token]:
         if m := _NUMBER.match(text, i):
             tokens.append(_literal(m.group(), i, fail))
         elif m := _NAME.match(text, i):
-            tokens.append(_name(m.group(), i, fail))
+            tokens.append(_name(m.group(), i, fail, params))
         elif text.startswith("**", i) or ch in _OPERATORS:
             tokens.append(_Token("op", "**" if text.startswith("**", i) else ch, i))
         else:
@@ -579,11 +580,33 @@ def _literal(text: str, pos: int, fail) -> _Token:
     return _Token("num", text, pos, value)
 
 
-def _name(name: str, pos: int, fail) -> _Token:
+def _name(name: str, pos: int, fail, params: dict | None = None) -> _Token:
+    if params and name in params and name not in _NAMES:
+        return _Token("num", name, pos, float(params[name]))   # a named number: its value, as an atom
     if name not in _NAMES:
         what = "Python keyword" if keyword.iskeyword(name) else "unknown name"
-        fail(f"{what} {name!r} at position {pos}; allowed names: {', '.join(_NAMES)}")
+        extra = f", and the names in params ({', '.join(sorted(params))})" if params else ""
+        fail(f"{what} {name!r} at position {pos}; allowed names: {', '.join(_NAMES)}{extra}")
     return _Token("name", name, pos)
+
+
+#: what a name in ``params`` may look like (and must not be: a name of the grammar, a keyword)
+PARAM_NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]{0,31}", re.ASCII)
+
+
+def check_param_name(name, key: str) -> str:
+    """A name usable in ``params``: an identifier that is not phi, pi, a function or a keyword."""
+    if not isinstance(name, str) or not PARAM_NAME.fullmatch(name) or name in _NAMES or keyword.iskeyword(name):
+        raise InputError(key, name, f"a parameter name must be an identifier of at most 32 characters, not "
+                         f"a Python keyword and not one of {', '.join(_NAMES)}")
+    return name
+
+
+def names_used(text: str, params: dict, key: str) -> set[str]:
+    """The names of ``params`` that ``text`` uses (the text is tokenized, not evaluated)."""
+    def fail(reason):
+        raise InputError(key, _shown(text), reason)
+    return {t.text for t in _tokenize(text, fail, params) if t.kind == "num" and t.text in params}
 
 
 # -- parser -------------------------------------------------------------------------------------
@@ -594,9 +617,9 @@ def _shown(text: str) -> str:
 class _Parser:
     """Recursive descent over the token list; every node is built by a simplifying constructor."""
 
-    def __init__(self, text: str, key: str):
+    def __init__(self, text: str, key: str, params: dict | None = None):
         self.text, self.key = text, key
-        self.tokens = _tokenize(text, self.fail)
+        self.tokens = _tokenize(text, self.fail, params)
         self.i = 0
         self.depth = 0
 
@@ -730,7 +753,7 @@ def _all_finite(node: Expr) -> bool:
     return True
 
 
-def parse(text: str, key: str) -> Expr:
+def parse(text: str, key: str, params: dict | None = None) -> Expr:
     """Parse a whitelisted expression in ``phi`` (grammar in the module docstring).
 
     Parameters
@@ -739,6 +762,10 @@ def parse(text: str, key: str) -> Expr:
         The expression, e.g. ``"-(8*exp(phi/sqrt(6)) + 4*exp(-2*phi/sqrt(6)))"``.
     key : str
         Where the text came from (e.g. ``"models[2].V"``), used in error messages.
+    params : dict, optional
+        Named numbers the text may use (``{"g": 0.6}``): each occurrence stands for its value, as
+        an atom (``-g**2`` with ``g = -0.5`` is ``-((-0.5)**2)``), so the tree is exactly that of
+        the text with the number written in parentheses.
 
     Returns
     -------
@@ -756,7 +783,7 @@ def parse(text: str, key: str) -> Expr:
     if len(text) > MAX_CHARS:
         raise InputError(key, _shown(text), f"expression too long: {len(text)} characters, at most "
                          f"{MAX_CHARS} (position {MAX_CHARS} onwards is over the limit)")
-    return _Parser(text, key).parse()
+    return _Parser(text, key, params).parse()
 
 
 # -- couplings ----------------------------------------------------------------------------------

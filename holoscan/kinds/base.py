@@ -50,6 +50,10 @@ What a kind may override (the defaults are stated)
 ``figures`` : tuple of str (class attribute)
     The per-model figures a scan draws for this kind, from ``phase-diagram``, ``eos`` and
     ``condensate`` (see :mod:`holoscan.scan.figures`). Default: the first two.
+``KEYS``, ``formulas`` : tuple of str (class attributes)
+    The keys a block of this kind may have, and those holding formulas in ``phi`` (parsed by
+    :func:`holoscan.expr.parse`). A family (``vary:`` in a scan config) varies numeric keys among
+    ``KEYS`` and substitutes ``params`` into ``formulas``. Defaults: none.
 ``shares_state(settings)`` / ``shared_state(targets, settings)`` / ``adopt_shared_state(state, settings)``
     What the solves of many targets share and is costly to build (e.g. an atlas of the horizon-
     data map), as a dict of numpy arrays, built once for all of a scan's targets of the model and
@@ -83,6 +87,8 @@ class ModelKind:
     batched: ClassVar[bool] = False
     has_onset: ClassVar[bool] = False
     figures: ClassVar[tuple[str, ...]] = ("phase-diagram", "eos")
+    KEYS: ClassVar[tuple[str, ...]] = ()
+    formulas: ClassVar[tuple[str, ...]] = ()
 
     # -- required ------------------------------------------------------------------------------
     @classmethod

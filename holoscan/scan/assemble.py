@@ -39,7 +39,7 @@ from .plan import read_table_rows
 from .seals import write_seal
 from .sizing import costs_from, read_costs, time_spent, write_costs
 from .store import atomic_path, atomic_write_text, seal_path, sha256_file
-from .tables import SCHEMA_VERSION, schema
+from .tables import SCHEMA_VERSION, family_arrays, schema
 
 #: points per bucket: the most rows (times the branches per point) sorted in memory at once
 BUCKET_POINTS = 100_000
@@ -174,7 +174,8 @@ def assemble(table_file, out_table, summary_json, summary_txt=None) -> dict:
         "created": datetime.now(UTC).isoformat(timespec="seconds"), "host": socket.gethostname(),
         "plan": table_file.name, "plan_hash": plan.plan_hash,
     }
-    target = schema(meta)
+    families = {m: d.get("family") for m, d in doc["models"].items()}
+    target = schema(meta, families)
     buckets = plan.bucket_ids()
     spent: dict = {}
     counts = {m: Counter() for m in model_order}
@@ -214,7 +215,10 @@ def assemble(table_file, out_table, summary_json, summary_txt=None) -> dict:
                 if t is None:
                     continue
                 t = t.sort_by([("_rank", "ascending"), ("T", "ascending"), ("mu", "ascending"),
-                               ("branch", "ascending")]).drop_columns(["_rank"]).cast(target)
+                               ("branch", "ascending")]).drop_columns(["_rank"])
+                for name, col in family_arrays(t["model_id"].to_pylist(), families).items():
+                    t = t.append_column(name, col)
+                t = t.cast(target)
                 g = t.group_by(["model_id", "status"]).aggregate([("status", "count")])
                 for m, s, n in zip(*(g[c].to_pylist() for c in ("model_id", "status", "status_count"))):
                     counts[m][s] += n

@@ -19,6 +19,7 @@ from ..kinds import model_from_block
 from ..point import resolve_method
 from ..settings import SolverSettings
 from .grid import grid_points
+from .members import expand
 
 #: points per job when the config gives none: for a kind solved point by point, and for a batched
 #: kind with a shared state (its atlas is built once by its own job; a chunk then costs little more
@@ -117,6 +118,7 @@ class ModelPlan:
     points: tuple
     points_per_job: int
     explicit_points_per_job: bool = False  # the model block gave its own points_per_job
+    family: dict | None = None  # a family member: {"id": family id, "values": {key: value}}
 
 
 @dataclass(frozen=True)
@@ -148,8 +150,9 @@ def validate_scan_config(doc, schema: dict | None = None) -> ScanConfig:
     _check_size(doc)
     default_solver = SolverSettings.from_block(doc.get("solver"), "solver")
     plans, seen = [], set()
-    for i, block in enumerate(doc["models"]):
-        key = f"models[{i}]"
+    members = [(i, mb, fam) for i, block in enumerate(doc["models"]) for mb, fam in expand(block, f"models[{i}]")]
+    for i, block, family in members:
+        key = f"models[{i}]" + (f" (member {block['id']})" if family else "")
         model = model_from_block({k: x for k, x in block.items() if k not in SCAN_MODEL_KEYS}, key)
         if model.id in seen:
             raise InputError(f"{key}.id", model.id, "duplicate model id")
@@ -166,7 +169,7 @@ def validate_scan_config(doc, schema: dict | None = None) -> ScanConfig:
         default = BATCHED_POINTS_PER_JOB if model.batched and model.shares_state(settings) else POINTS_PER_JOB
         plans.append(ModelPlan(model, settings, tuple(pts),
                                int(block.get("points_per_job", doc.get("points_per_job", default))),
-                               "points_per_job" in block))
+                               "points_per_job" in block, family))
     return ScanConfig(
         scan=doc["scan"],
         models=tuple(plans),

@@ -280,7 +280,7 @@ def _make_plan(cfg: ScanConfig, results_dir="results") -> Plan:
     costs, sizing, cost_of, shares = read_costs(root), [], {}, {}
     for mp in cfg.models:
         spec, solver = mp.model.spec(), mp.settings.canonical()
-        models[mp.model.id] = {"spec": spec, "solver": solver}
+        models[mp.model.id] = {"spec": spec, "solver": solver, **({"family": mp.family} if mp.family else {})}
         ctx = model_context(spec, solver, code)
         if has_lines(mp.model):
             grid = sorted(map(list, mp.points))

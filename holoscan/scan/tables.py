@@ -78,9 +78,35 @@ def make_schema(columns, file_meta: dict | None = None) -> pa.Schema:
     return pa.schema(fields, metadata=meta)
 
 
-def schema(file_meta: dict | None = None) -> pa.Schema:
-    """Schema of the points table."""
-    return make_schema(COLUMNS, file_meta)
+def schema(file_meta: dict | None = None, families: dict | None = None) -> pa.Schema:
+    """Schema of the points table; with ``families`` (model id -> family record, see
+    :func:`family_columns`) the family columns are appended."""
+    return make_schema(COLUMNS + family_columns(families), file_meta)
+
+
+def family_columns(families: dict | None) -> list:
+    """The columns a scan with model families adds to its tables: ``family`` (the family id, null
+    outside families) and ``vary_<key>`` for each key varied by some family (null elsewhere)."""
+    records = [f for f in (families or {}).values() if f]
+    if not records:
+        return []
+    keys = sorted({k for f in records for k in f["values"]})
+    return [("family", STR, "", "id of the model family this model is a member of (null: not a member)")] + [
+        (f"vary_{k}", F64, "as the key", f"value of {k} for this family member") for k in keys]
+
+
+def family_arrays(model_ids: list, families: dict) -> dict:
+    """The family columns' values for rows of these model ids (see :func:`family_columns`)."""
+    cols = family_columns(families)
+    out = {}
+    for name, typ, _, _ in cols:
+        if name == "family":
+            vals = [(families.get(m) or {}).get("id") for m in model_ids]
+        else:
+            k = name[len("vary_"):]
+            vals = [((families.get(m) or {}).get("values") or {}).get(k) for m in model_ids]
+        out[name] = pa.array(vals, typ)
+    return out
 
 
 def _cell(v, t):

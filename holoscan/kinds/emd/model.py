@@ -68,6 +68,7 @@ class EMDModel(ModelKind):
     batched = True
     d = D_BOUNDARY
     KEYS = ("id", "kind", "kappa_sq", "V", "f", "source", "energy_scale")
+    formulas = ("V", "f")
 
     @classmethod
     def from_block(cls, block: dict, key: str = "model") -> EMDModel:

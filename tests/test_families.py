@@ -1,0 +1,121 @@
+"""Model families (``vary:`` and ``params:`` in a scan config), in process (no Snakemake).
+
+Scenarios: a Reissner-Nordstrom-AdS5 family over the Maxwell coupling e^2; a dilaton family whose
+potential takes named parameters; edits of a family (one value changed, one added) and what they
+leave to solve; configs with a mistake in a family.
+
+References: the rn closed form (Chamblin, Emparan, Johnson & Myers 1999, Phys. Rev. D 60, 064018;
+normalisation of Hartnoll 2009, Class. Quant. Grav. 26, 224002), checked against published values
+in tests/test_rn_thermo.py; the rescaling of the gauge field A -> e A, which turns the Maxwell term
+F^2/(4 e^2) into F^2/4 and the chemical potential mu into mu/e, so that P(T, mu; e^2) =
+P(T, mu/e; 1) and rho(T, mu; e^2) = rho(T, mu/e; 1)/e (common practice, no source).
+"""
+from __future__ import annotations
+
+import math
+
+import pyarrow.parquet as pq
+import pytest
+
+from holoscan import RNModel, SolverSettings, solve_point
+from holoscan.errors import InputError
+from holoscan.expr import parse
+from holoscan.scan.assemble import assemble
+from holoscan.scan.chunk import run_chunk
+from holoscan.scan.config import validate_scan_config
+from holoscan.scan.plan import make_plan, write_plan_files
+
+CLOSED = SolverSettings(method="closed-form")
+
+RN_FAMILY = {
+    "scan": "fam",
+    "models": [{"id": "q4", "kind": "rn", "d": 4, "kappa_sq": 0.5, "e_sq": 1.0, "vary": {"e_sq": [0.5, 1.0, 2.0]}}],
+    "grid": {"T": {"min": 0.2, "max": 1.0, "num": 3}, "mu": [0.0, 0.8, 1.6]},
+}
+
+DILATON = {"id": "dl", "kind": "emd", "kappa_sq": 1.0, "params": {"g": 0.6, "b": 0.77},
+           "V": "-12*cosh(g*phi) + b*phi**2 - 0.15*phi**4 + 0.0015*phi**6", "f": "sech(1.1*phi)",
+           "vary": {"g": [0.55, 0.6, 0.65], "b": {"min": 0.7, "max": 0.8, "num": 3}}}
+
+
+def run(cfg, root):
+    """Plan, solve every new chunk and assemble; returns (plan, table)."""
+    plan = make_plan(validate_scan_config(cfg), root)
+    write_plan_files(plan)
+    for c in plan.chunk_ids:
+        run_chunk(plan.chunk_manifest(c), plan.segment(c), log_file="", log=lambda m: None)
+    out = plan.root / "points.parquet"
+    assemble(plan.table_file, out, plan.root / "summary.json")
+    return plan, pq.read_table(out).to_pandas()
+
+
+def test_rn_family_rows_equal_each_members_closed_form(tmp_path):
+    _, t = run(RN_FAMILY, tmp_path)
+    assert sorted(t["model_id"].unique()) == ["q4_e_sq0.5", "q4_e_sq1", "q4_e_sq2"]
+    assert set(t["family"]) == {"q4"} and len(t) == 27
+    for mid, rows in t.groupby("model_id"):
+        e_sq = float(rows["vary_e_sq"].iloc[0])
+        assert mid == f"q4_e_sq{e_sq:g}"
+        alone = RNModel(mid, 4, kappa_sq=0.5, e_sq=e_sq)
+        unit = RNModel("unit", 4, kappa_sq=0.5, e_sq=1.0)
+        for r in rows.itertuples():
+            (c,) = solve_point(alone, r.T, r.mu, CLOSED)
+            for k in ("s", "rho", "P", "epsilon", "chi2"):
+                assert getattr(r, k) == getattr(c, k), (mid, k)  # the same model: the same bits
+            # the gauge-field rescaling: an outside relation between members
+            (u,) = solve_point(unit, r.T, r.mu / math.sqrt(e_sq), CLOSED)
+            assert r.P == pytest.approx(u.P, rel=1e-13)  # noqa: SIM300 - P is the pressure
+            assert r.rho == pytest.approx(u.rho / math.sqrt(e_sq), rel=1e-13, abs=1e-300)
+
+
+def test_params_are_substituted_exactly():
+    cfg = validate_scan_config({"scan": "p", "grid": {"T": [0.2], "mu": [0.0]}, "models": [DILATON]})
+    members = {m.model.id: m for m in cfg.models}
+    assert len(members) == 9 and "dl_g0.55_b0.75" in members
+    m = members["dl_g0.65_b0.8"]
+    assert m.family == {"id": "dl", "values": {"g": 0.65, "b": 0.8}}
+    by_hand = parse("-12*cosh(0.65*phi) + 0.8*phi**2 - 0.15*phi**4 + 0.0015*phi**6", "V")
+    assert parse(m.model.V, "V") is by_hand          # the same canonical tree (interned)
+    assert m.model.spec()["V"] == str(by_hand)        # and the point key sees it
+
+
+def test_zip_pairs_values_and_members_keep_their_ids():
+    cfg = validate_scan_config({**RN_FAMILY, "models": [
+        {"id": "z", "kind": "rn", "d": 3, "kappa_sq": 1.0, "e_sq": 1.0,
+         "vary": {"zip": {"e_sq": [2.0, 0.5], "kappa_sq": [0.25, 4.0]}}}]})
+    got = {m.model.id: (m.model.e_sq, m.model.kappa_sq) for m in cfg.models}
+    assert got == {"z_e_sq2_kappa_sq0.25": (2.0, 0.25), "z_e_sq0.5_kappa_sq4": (0.5, 4.0)}
+
+
+def test_changing_or_adding_a_value_solves_only_that_member(tmp_path):
+    run(RN_FAMILY, tmp_path)
+    n_grid = 9
+    changed = {**RN_FAMILY, "models": [{**RN_FAMILY["models"][0], "vary": {"e_sq": [0.5, 1.0, 3.0]}}]}
+    plan = make_plan(validate_scan_config(changed), tmp_path)
+    assert plan.n_missing == n_grid                      # member e_sq = 3 only
+    assert {m for c in plan.chunk_ids for m in plan.chunk_models[c]} == {"q4_e_sq3"}
+    added = {**RN_FAMILY, "models": [{**RN_FAMILY["models"][0], "vary": {"e_sq": [0.5, 1.0, 2.0, 4.0]}}]}
+    plan2, t = run(added, tmp_path)
+    assert plan2.n_missing == n_grid and {m for c in plan2.chunk_ids for m in plan2.chunk_models[c]} == {"q4_e_sq4"}
+    assert len(t) == 4 * n_grid
+    again = make_plan(validate_scan_config(added), tmp_path)
+    assert again.n_missing == 0 and again.chunk_ids == ()
+
+
+@pytest.mark.parametrize("change,key,words", [
+    ({"vary": {"q": [1.0, 2.0]}}, "models[0].vary.q", "has no key 'q'"),
+    ({"params": {"g": 0.6, "b": 0.77, "unused": 1.0}}, "models[0].params.unused", "no formula uses it"),
+    # b = -2.5 puts the scalar's mass below the Breitenlohner-Freedman bound m^2 >= -4
+    # (Breitenlohner & Freedman 1982, Ann. Phys. 144, 249): that member alone is refused
+    ({"vary": {"b": [0.77, -2.5]}}, "models[0] (member dl_b-2.5).V", "V''(0)"),
+    ({"params": {"pi": 3.0}}, "models[0].params", "not one of"),
+])
+def test_a_mistake_in_a_family_names_the_member_and_key(change, key, words):
+    block = {**DILATON, **change}
+    if "vary" not in change:
+        block["vary"] = {"g": [0.6]}
+    with pytest.raises(InputError) as e:
+        validate_scan_config({"scan": "x", "grid": {"T": [0.2], "mu": [0.0]}, "models": [block]})
+    text = str(e.value)
+    assert key in text and words in text, text
+    assert len(text.splitlines()) == 1
