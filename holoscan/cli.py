@@ -124,25 +124,27 @@ def cmd_phase_tables(args) -> int:
     from pathlib import Path
 
     from .scan.phase_tables import build_phase_tables, dump_json, phase_summary_text
-    from .scan.plan import plan_hash_of
+    from .scan.plan import plan_hash_of, read_table_header
     from .scan.seals import write_seal
     from .scan.store import atomic_write_text
 
-    text = Path(args.plan).read_text()
-    doc = json.loads(text)
+    doc = read_table_header(args.plan)
     root = Path(args.plan).parent.parent
     keys = [k for _, k in doc.get("lines", [])]
     summary = build_phase_tables(args.points, [root / "lines" / f"{k}.parquet" for k in keys],
                                  [root / "lines" / f"{k}-critical.parquet" for k in keys],
-                                 args.out_phases, args.out_transitions, args.out_critical)
+                                 args.out_phases, args.out_transitions, args.out_critical,
+                                 doc["models"], args.out_families)
     summary_text_ = phase_summary_text(summary)
     if args.summary_text:
         atomic_write_text(Path(args.summary_text), summary_text_)
     if args.summary:
         atomic_write_text(Path(args.summary), dump_json(summary))
-    for path in (args.out_phases, args.out_transitions, args.out_critical, args.summary, args.summary_text):
+    plan_hash = plan_hash_of(Path(args.plan).read_text())
+    for path in (args.out_phases, args.out_transitions, args.out_critical, args.out_families, args.summary,
+                 args.summary_text):
         if path:
-            write_seal(path, plan_hash_of(text))
+            write_seal(path, plan_hash)
     print(summary_text_, end="")
     return 0
 
@@ -270,6 +272,7 @@ def build_parser() -> argparse.ArgumentParser:
     pt2.add_argument("--out-phases", required=True)
     pt2.add_argument("--out-transitions", required=True)
     pt2.add_argument("--out-critical", required=True)
+    pt2.add_argument("--out-families", default=None)
     pt2.add_argument("--summary", default=None)
     pt2.add_argument("--summary-text", default=None)
     pt2.set_defaults(func=cmd_phase_tables)

@@ -12,8 +12,10 @@ P(T, mu/e; 1) and rho(T, mu; e^2) = rho(T, mu/e; 1)/e (common practice, no sourc
 """
 from __future__ import annotations
 
+import json
 import math
 
+import pyarrow as pa
 import pyarrow.parquet as pq
 import pytest
 
@@ -23,6 +25,8 @@ from holoscan.expr import parse
 from holoscan.scan.assemble import assemble
 from holoscan.scan.chunk import run_chunk
 from holoscan.scan.config import validate_scan_config
+from holoscan.scan.landmarks import NAMES, families_table, member_landmarks
+from holoscan.scan.lines_job import run_lines
 from holoscan.scan.plan import make_plan, write_plan_files
 
 CLOSED = SolverSettings(method="closed-form")
@@ -119,3 +123,45 @@ def test_a_mistake_in_a_family_names_the_member_and_key(change, key, words):
     text = str(e.value)
     assert key in text and words in text, text
     assert len(text.splitlines()) == 1
+
+
+def test_emd_family_landmarks_equal_separate_models_and_match_a_scale(tmp_path):
+    # three members of an invented dilaton family (g varied) and the same three models written out by
+    # hand: the lines of each are located by the same finders, so a member's landmarks in
+    # families.parquet must be exactly those of its twin; with match:, every member's crossover at
+    # mu = 0 is put at 150 MeV (the matched landmark equals the target to its uncertainty, by
+    # construction of the scale) and its other landmarks carry the same scale (common practice, no source)
+    v = "-12*cosh({g}*phi) + 0.77*phi**2 - 0.15*phi**4 + 0.0015*phi**6"
+    family = {"id": "dl", "kind": "emd", "kappa_sq": 1.0, "params": {"g": 0.6}, "V": v.format(g="g"),
+              "f": "sech(1.1*phi)", "vary": {"g": [0.58, 0.6, 0.62]},
+              "match": {"landmark": "crossover_T_mu0", "value": 150.0, "unit": "MeV"}}
+    twins = [{"id": f"twin{g}", "kind": "emd", "kappa_sq": 1.0, "V": v.format(g=g), "f": "sech(1.1*phi)"}
+             for g in (0.58, 0.6, 0.62)]
+    cfg = {"scan": "lm", "models": [family, *twins],
+           "grid": {"T": [0.17, 0.22, 0.27], "mu": [0.0, 0.4, 0.8]}}
+    plan = make_plan(validate_scan_config(cfg), tmp_path)
+    write_plan_files(plan)
+    lines, crit = [], []
+    for key in plan.lines_ids:
+        out_l, out_c = plan.lines_outputs(key)
+        run_lines(plan.lines_manifest_file(key), out_l, out_c, log=lambda m: None)
+        lines += pq.read_table(out_l).to_pylist()
+        crit += pq.read_table(out_c).to_pylist()
+    models = json.loads(plan.table_file.read_text())["models"]
+    fam = families_table(models, lines, crit).to_pylist()
+    assert [r["model_id"] for r in fam] == ["dl_g0.58", "dl_g0.6", "dl_g0.62"]
+    for r, g in zip(fam, (0.58, 0.6, 0.62)):
+        assert r["family"] == "dl" and r["vary_g"] == g
+        twin = member_landmarks([x for x in lines if x["model_id"] == f"twin{g}"],
+                                [x for x in crit if x["model_id"] == f"twin{g}"])
+        for n in NAMES:
+            assert r[n] == twin[n] and r[n + "_err"] == twin[n + "_err"] and r[n + "_status"] == twin[n + "_status"], n
+        assert r["first_order_T"] == twin["first_order_T"] and r["first_order_mu"] == twin["first_order_mu"]
+        assert r["crossover_T_mu0_status"] == "ok" and r["cep_T_status"] == "ok"
+        # the scale
+        assert r["match_landmark"] == "crossover_T_mu0" and r["match_unit"] == "MeV"
+        assert abs(r["crossover_T_mu0_in_unit"] - 150.0) <= max(r["scale"] * r["crossover_T_mu0_err"], 1e-12 * 150)
+        assert r["cep_T_in_unit"] == pytest.approx(r["cep_T"] * 150.0 / r["crossover_T_mu0"], rel=1e-15)
+    # the landmarks move with the coupling: a larger g, a hotter crossover (the twins' own numbers)
+    assert fam[0]["crossover_T_mu0"] < fam[1]["crossover_T_mu0"] < fam[2]["crossover_T_mu0"]
+    assert isinstance(families_table(models, lines, crit), pa.Table)

@@ -8,6 +8,8 @@ A block may carry two keys of its own (removed before the kind sees the block):
     its values substituted (:func:`holoscan.expr.parse`) and written back as the canonical text of
     the substituted tree, so a member's spec, and hence its point keys, are those of the same model
     written out by hand.
+``match: {landmark, value, unit}``
+    Compare the members in one physical unit: see :mod:`holoscan.scan.landmarks`.
 ``vary: {key: values, ..., zip: {key: [values], ...}}``
     The keys to sweep: a name in ``params``, or a numeric key of the kind (``e_sq``, ``kappa_sq``,
     ``q``, ``m_sq``, ``energy_scale``, ...). Values as a grid axis: a list of numbers, or
@@ -34,7 +36,7 @@ from ..expr import check_param_name, names_used, parse
 from ..kinds import kind_class
 from .grid import axis_values, canon
 
-FAMILY_KEYS = ("vary", "params")
+FAMILY_KEYS = ("vary", "params", "match")
 _ID = re.compile(r"[A-Za-z0-9][A-Za-z0-9_.-]{0,63}")
 MAX_MEMBERS = 1000
 
@@ -116,6 +118,8 @@ def expand(block: dict, key: str) -> list[tuple[dict, dict | None]]:
             raise InputError(f"{key}.params.{n}", params[n],
                              f"no formula uses it (formulas of kind {block['kind']}: {', '.join(formulas)})")
     base = {k: x for k, x in block.items() if k not in FAMILY_KEYS}
+    if "match" in block and "vary" not in block:
+        raise InputError(f"{key}.match", block["match"], "matching a scale needs a family (vary:)")
     if "vary" not in block:
         return [(_member(base, params, {}, formulas, key, base.get("id")), None)]
     axes = _axes(block, key)
@@ -131,6 +135,7 @@ def expand(block: dict, key: str) -> list[tuple[dict, dict | None]]:
                              f"and params has no such name; numeric keys of the kind: {', '.join(sorted(allowed))}")
         if k in base and (isinstance(base[k], bool) or not isinstance(base[k], (int, float))):
             raise InputError(f"{key}.vary.{k}", base[k], "only numeric keys can be varied")
+    match = _match(block, key)
     rows = [tuple(x for part in combo for x in part) for combo in itertools.product(*(r for _, r in axes))]
     if len(rows) > MAX_MEMBERS:
         raise InputError(f"{key}.vary", f"{len(rows)} members", f"a family has at most {MAX_MEMBERS} members")
@@ -145,8 +150,27 @@ def expand(block: dict, key: str) -> list[tuple[dict, dict | None]]:
             if k not in params:
                 mb[k] = int(x) if isinstance(base.get(k), int) and float(x).is_integer() else x
         out.append((_member(mb, {**params, **{k: x for k, x in values.items() if k in params}}, values,
-                            formulas, key, mid), {"id": fid, "values": values}))
+                            formulas, key, mid), {"id": fid, "values": values, **({"match": match} if match else {})}))
     return out
+
+
+def _match(block: dict, key: str) -> dict | None:
+    """The family's ``match: {landmark, value, unit}`` (see holoscan.scan.landmarks), checked."""
+    from .landmarks import MATCHABLE
+
+    m = block.get("match")
+    if m is None:
+        return None
+    if not isinstance(m, dict) or set(m) != {"landmark", "value", "unit"}:
+        raise InputError(f"{key}.match", m, "must be {landmark, value, unit}")
+    if m["landmark"] not in MATCHABLE:
+        raise InputError(f"{key}.match.landmark", m["landmark"], f"must be one of {', '.join(MATCHABLE)}")
+    value = _number(m["value"], f"{key}.match.value")
+    if not value > 0:
+        raise InputError(f"{key}.match.value", m["value"], "must be > 0")
+    if not isinstance(m["unit"], str) or not _ID.fullmatch(m["unit"]):
+        raise InputError(f"{key}.match.unit", m["unit"], "must be a unit name such as MeV")
+    return {"landmark": m["landmark"], "value": value, "unit": m["unit"]}
 
 
 def _member(block: dict, params: dict, values: dict, formulas, key: str, mid) -> dict:

@@ -11,6 +11,7 @@ from collections import Counter, defaultdict
 import pyarrow as pa
 import pyarrow.parquet as pq
 
+from .landmarks import families_table
 from .store import atomic_write_table
 from .tables import F64, I64, STR, file_metadata, table_from_rows
 from .uncertainty import with_uncertainty
@@ -126,8 +127,10 @@ def phases_from_points(points: pa.Table) -> list[dict]:
     return out
 
 
-def build_phase_tables(points_file, line_files, critical_files, out_phases, out_transitions, out_critical) -> dict:
-    """Write the three phase tables; returns a summary dict (counts per model)."""
+def build_phase_tables(points_file, line_files, critical_files, out_phases, out_transitions, out_critical,
+                       models: dict | None = None, out_families=None) -> dict:
+    """Write the three phase tables and, with ``out_families``, the families table of the plan's
+    ``models`` (:func:`holoscan.scan.landmarks.families_table`); returns a summary dict (counts per model)."""
     points = pq.read_table(points_file)
     meta = file_metadata(points)
     order = {m: i for i, m in enumerate(dict.fromkeys(points["model_id"].to_pylist()))}
@@ -141,6 +144,8 @@ def build_phase_tables(points_file, line_files, critical_files, out_phases, out_
     atomic_write_table(table_from_rows(phases, PHASE_COLUMNS, meta), out_phases)
     atomic_write_table(table_from_rows(lines, TRANSITION_COLUMNS, meta), out_transitions)
     atomic_write_table(table_from_rows(crit, CRITICAL_COLUMNS, meta), out_critical)
+    if out_families:
+        atomic_write_table(families_table(models or {}, lines, crit, meta), out_families)
     summary = {}
     for m in order:
         summary[m] = {

@@ -383,7 +383,7 @@ def _make_plan(cfg: ScanConfig, results_dir="results") -> Plan:
 
 #: the tables and summaries of a scan, sealed with the plan hash by the jobs that write them
 TABLE_FILES = ("points.parquet", "summary.json", "summary.txt", "phases.parquet", "transitions.parquet",
-               "critical_points.parquet", "phase_summary.json", "phase_summary.txt")
+               "critical_points.parquet", "families.parquet", "phase_summary.json", "phase_summary.txt")
 
 
 def _table_file_used(root: Path, plan_hash: str, text: str) -> Path | None:

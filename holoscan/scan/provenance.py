@@ -68,9 +68,13 @@ def _iso(t: datetime | None) -> str | None:
 
 
 def figure_files(root: Path) -> list[Path]:
-    """Every file under ``<root>/figures`` (hidden temporary files excluded), sorted."""
+    """Every file under ``<root>/figures`` (hidden files and folders excluded: temporary files and
+    the cache of drawn figures), sorted."""
     d = Path(root) / "figures"
-    return sorted(p for p in d.rglob("*") if p.is_file() and not p.name.startswith(".")) if d.is_dir() else []
+    if not d.is_dir():
+        return []
+    return sorted(p for p in d.rglob("*") if p.is_file()
+                  and not any(part.startswith(".") for part in p.relative_to(d).parts))
 
 
 class _Builder:
@@ -221,6 +225,11 @@ def build(results_dir, figures=None) -> ProvDoc:
     for line_e, crit_e in lines_of.values():
         b.derived(tables["transitions"], line_e)
         b.derived(tables["critical_points"], crit_e)
+    if (root / "families.parquet").is_file():  # the family members' landmarks, from the line tables
+        fam = b.file(root / "families.parquet", "holoscan:Table")
+        b.gen(fam, pt)
+        b.derived(fam, tables["transitions"])
+        b.derived(fam, tables["critical_points"])
 
     acts = {"assemble": asm, "phase-tables": pt}
     for name, (act, src) in SUMMARIES.items():

@@ -26,6 +26,7 @@ rule phase_tables:
         phases="results/{scan}/phases.parquet",
         transitions="results/{scan}/transitions.parquet",
         critical="results/{scan}/critical_points.parquet",
+        families="results/{scan}/families.parquet",
         summary="results/{scan}/phase_summary.json",
         summary_text="results/{scan}/phase_summary.txt",
     log:
@@ -33,5 +34,6 @@ rule phase_tables:
     localrule: True
     shell:
         "{PY} -m holoscan phase-tables {input.plan} --points {input.points} --out-phases {output.phases} "
-        "--out-transitions {output.transitions} --out-critical {output.critical} --summary {output.summary} "
+        "--out-transitions {output.transitions} --out-critical {output.critical} --out-families {output.families} "
+        "--summary {output.summary} "
         "--summary-text {output.summary_text} > {log} 2>&1"
