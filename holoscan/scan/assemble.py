@@ -207,6 +207,9 @@ def assemble(table_file, out_table, summary_json, summary_txt=None) -> dict:
                 flush(batch)
                 held = 0
         flush(batch)
+        plan.key = plan.chunk = plan.starts = None   # pass 1 done: the key arrays are not needed
+        pool = pa.default_memory_pool()
+        pool.release_unused()
         if missing:
             raise AssemblyError(f"{missing} point(s) missing from the segments; run the workflow again")
         with atomic_path(out_table) as tmp, pq.ParquetWriter(tmp, target) as writer:
@@ -224,6 +227,7 @@ def assemble(table_file, out_table, summary_json, summary_txt=None) -> dict:
                     counts[m][s] += n
                 writer.write_table(t, row_group_size=ROW_GROUP)
                 del t
+                pool.release_unused()      # give the sorted bucket's memory back before the next
     finally:
         spill.close()
         shutil.rmtree(folder, ignore_errors=True)
