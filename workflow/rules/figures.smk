@@ -18,6 +18,11 @@ def figure_models():
     return [(m.model.id, m.model.kind) for m in CFG.models]
 
 
+def figure_families():
+    """Ids of the model families of the current config, in config order."""
+    return list(dict.fromkeys(m.family["id"] for m in CFG.models if m.family))
+
+
 def _figures_code_hash():
     """Hash of the figure sources: a change to them remakes the figures (a params change)."""
     h = hashlib.sha256()
@@ -34,6 +39,8 @@ def _figure_output(name):
         return path
     fig = next((k for k in FIGURE_KINDS if stem.endswith("-" + k)), "convergence")
     model = stem[: -len(fig) - 1] if fig != "convergence" else "all models"
+    if stem.startswith("family-"):
+        fig, model = "family", stem[len("family-"):].rsplit("-", 1)[0]
     return report(path, caption=f"../report/figures/{fig}.rst", category="Figures", subcategory=model,
                   labels={"model": model, "figure": fig})
 
@@ -41,7 +48,7 @@ def _figure_output(name):
 def figure_targets():
     """Every figure file the current plan produces (listed in rule all), and the figures manifest."""
     root = f"results/{PLAN.scan}"
-    return [f"{root}/{n}" for n in figure_files(figure_models())] + [f"{root}/{MANIFEST}"]
+    return [f"{root}/{n}" for n in figure_files(figure_models(), figure_families())] + [f"{root}/{MANIFEST}"]
 
 
 rule figures:
@@ -51,7 +58,7 @@ rule figures:
         transitions="results/{scan}/transitions.parquet",
         critical="results/{scan}/critical_points.parquet",
     output:
-        [_figure_output(n) for n in figure_files(figure_models())],
+        [_figure_output(n) for n in figure_files(figure_models(), figure_families())],
         manifest=f"results/{{scan}}/{MANIFEST}",
     params:
         code_hash=code_hash(),

@@ -10,6 +10,9 @@ Files (relative to ``results/<scan>/``), for every model of the scan:
 - ``figures/<model>-condensate.{png,pdf}``: the condensate against T/T_c (kinds that list it in
   their ``figures``, e.g. ``charged-scalar``);
 
+for every model family ``figures/family-<id>-landmarks`` and ``figures/family-<id>-lines`` (see
+:mod:`.family`);
+
 and once per scan ``figures/convergence.{png,pdf}`` (error estimate and first-law mismatch) and
 ``figures/figures.json`` (the list of files with the code hash and version of the tables, each
 figure's caption with its grid and units, the figures that are placeholders and why, and the files
@@ -35,13 +38,20 @@ def model_figure_stems(model_id: str, kind: str) -> list[str]:
     return [f"figures/{model_id}-{name}" for name in names]
 
 
-def figure_files(models: list[tuple[str, str]]) -> list[str]:
-    """Every figure file of a scan with these ``(model_id, kind)`` pairs, relative to ``results/<scan>/``.
+def family_figure_stems(family_id: str) -> list[str]:
+    """Stems of the figures of one model family (see :mod:`.family`)."""
+    return [f"figures/family-{family_id}-{name}" for name in ("landmarks", "lines")]
+
+
+def figure_files(models: list[tuple[str, str]], families: list[str] = ()) -> list[str]:
+    """Every figure file of a scan with these ``(model_id, kind)`` pairs and family ids, relative to
+    ``results/<scan>/``.
 
     Known before any table exists, so the workflow can list them as targets. The manifest
     ``figures/figures.json`` is not included (see :data:`MANIFEST`).
     """
     stems = [s for mid, kind in models for s in model_figure_stems(mid, kind)]
+    stems += [s for fid in families for s in family_figure_stems(fid)]
     stems.append("figures/convergence")
     return [f"{s}.{ext}" for s in stems for ext in FORMATS]
 
@@ -57,4 +67,4 @@ def write_figures(results_dir, models: list[tuple[str, str]] | None = None, jobs
     return write_all(results_dir, models, jobs)
 
 
-__all__ = ["FORMATS", "MANIFEST", "figure_files", "model_figure_stems", "write_figures"]
+__all__ = ["FORMATS", "MANIFEST", "family_figure_stems", "figure_files", "model_figure_stems", "write_figures"]

@@ -26,7 +26,7 @@ from ...errors import InputError
 from ...kinds import kind_class
 from ...validate import finite_or
 
-TABLES = ("points", "phases", "transitions", "critical_points")
+TABLES = ("points", "phases", "transitions", "critical_points", "families")
 
 #: largest magnitude drawn: matplotlib widens an axis by a margin, and beyond about 1e300 (or 300
 #: decades on a logarithmic axis) that margin overflows
@@ -51,6 +51,7 @@ class ScanTables:
     critical: pd.DataFrame
     meta: dict
     notes: list = field(default_factory=list)
+    families: pd.DataFrame = field(default_factory=pd.DataFrame)
 
     @property
     def scan(self) -> str:
@@ -78,6 +79,10 @@ class ScanTables:
             return []
         pairs = self.points[["model_id", "kind"]].dropna().astype(str).drop_duplicates()
         return [tuple(r) for r in pairs.itertuples(index=False)]
+
+    def family_ids(self) -> list[str]:
+        """Ids of the config's families (blocks with ``vary``), in config order."""
+        return [b["id"] for b in self._blocks() if isinstance(b.get("id"), str) and "vary" in b]
 
     def block(self, model_id: str) -> dict:
         """The model's config block (empty if the metadata has none)."""
@@ -138,7 +143,7 @@ def load_scan(results_dir) -> ScanTables:
     points = _numeric(table.to_pandas())
     return ScanTables(root, points, _read(root / "phases.parquet", notes),
                       _read(root / "transitions.parquet", notes), _read(root / "critical_points.parquet", notes),
-                      meta, notes)
+                      meta, notes, _read(root / "families.parquet", notes))
 
 
 def drawable(values, log: bool = False) -> np.ndarray:

@@ -36,14 +36,14 @@ import sys
 from pathlib import Path
 
 from ..store import atomic_path, atomic_write_text
-from . import FORMATS, MANIFEST, model_figure_stems
+from . import FORMATS, MANIFEST, family_figure_stems, model_figure_stems
 from .data import ScanTables, load_scan
 
 _TABLES: ScanTables | None = None  # the scan being drawn, shared with forked workers
 
 #: heading of each kind of figure, for placeholders
 HEADINGS = {"phase-diagram": "phase diagram", "eos": "equation of state", "condensate": "condensate",
-            "convergence": "convergence map"}
+            "convergence": "convergence map", "family-landmarks": "landmarks", "family-lines": "lines"}
 
 
 def _plot(what: str, mid, kind, models):
@@ -54,6 +54,10 @@ def _plot(what: str, mid, kind, models):
 
     if what == "convergence":
         return plot_convergence(_TABLES, models)
+    if what in ("family-landmarks", "family-lines"):
+        from .family import plot_family_landmarks, plot_family_lines
+
+        return (plot_family_landmarks if what == "family-landmarks" else plot_family_lines)(_TABLES, mid)
     plot = {"phase-diagram": plot_phase_diagram, "eos": plot_eos, "condensate": plot_condensate}[what]
     return plot(_TABLES, mid, kind)
 
@@ -186,6 +190,9 @@ def write_all(results_dir, models=None, jobs: int = 1) -> list[str]:
         for stem in model_figure_stems(mid, kind):
             what = stem.rsplit(f"{mid}-", 1)[1]
             tasks.append((what, stem, mid, kind, None, stamp(_TABLES, what, mid, kind, sources)))
+    for fid in _TABLES.family_ids():
+        for stem in family_figure_stems(fid):
+            tasks.append(("family-" + stem.rsplit("-", 1)[1], stem, fid, None, None))
     tasks.append(("convergence", "figures/convergence", None, None, models))
     done = [_from_cache(t, t[5]) if len(t) > 5 else None for t in tasks]
     todo = [t for t, d in zip(tasks, done) if d is None]
