@@ -74,7 +74,7 @@ class ScanTables:
         """``(model_id, kind)`` in config order (from the metadata), else in table order."""
         blocks = [b for b in self._blocks() if isinstance(b.get("id"), str) and isinstance(b.get("kind"), str)]
         if blocks:
-            return [(b["id"], b["kind"]) for b in blocks]
+            return [(m["id"], m["kind"]) for i, b in enumerate(blocks) for m, _ in self._members(b, i)]
         if not {"model_id", "kind"} <= set(self.points.columns):
             return []
         pairs = self.points[["model_id", "kind"]].dropna().astype(str).drop_duplicates()
@@ -84,11 +84,22 @@ class ScanTables:
         """Ids of the config's families (blocks with ``vary``), in config order."""
         return [b["id"] for b in self._blocks() if isinstance(b.get("id"), str) and "vary" in b]
 
+    @staticmethod
+    def _members(block: dict, i: int) -> list:
+        """The model blocks a config block stands for (a family's members; see scan/members.py)."""
+        from ..members import expand
+
+        try:
+            return expand(block, f"models[{i}]")
+        except InputError:
+            return [(block, None)]
+
     def block(self, model_id: str) -> dict:
-        """The model's config block (empty if the metadata has none)."""
-        for b in self._blocks():
-            if b.get("id") == model_id:
-                return b
+        """The model's config block (a family member's own block; empty if the metadata has none)."""
+        for i, b in enumerate(self._blocks()):
+            for m, _ in self._members(b, i):
+                if m.get("id") == model_id:
+                    return m
         return {}
 
     def rows(self, name: str, model_id: str) -> pd.DataFrame:
