@@ -9,7 +9,8 @@ when the member's lines hold it:
 ``cep_T``, ``cep_mu``
     the critical endpoint [E];
 ``instability_mu_over_T``
-    |mu|/T of the instability locus (an unsourced ``emd`` model, where it is one ratio) [1];
+    |mu|/T of the instability locus where it is one ratio (an unsourced ``emd`` model; the spinodals
+    of a model with a scale, at many ratios, are not a landmark) [1];
 ``onset_mu_over_T``
     mu/T_c of the second-order line (``charged-scalar``) [1];
 ``first_order_mu``, ``first_order_T``
@@ -72,6 +73,9 @@ def member_landmarks(transitions: list[dict], critical: list[dict]) -> dict:
         absent("cep_T")
         absent("cep_mu")
     inst = [r for r in by_type.get("instability", []) if r.get("T")]
+    ratios = [abs(r["mu"]) / r["T"] for r in _ok(inst)]
+    if inst and ratios and (max(ratios) - min(ratios)) > 1e-6 * max(ratios):
+        inst = []  # spinodals along a first-order line (a model with a scale): no single ratio
     if inst:
         r = (_ok(inst) or inst)[0]
         x = abs(r["mu"]) / r["T"]

@@ -4,7 +4,7 @@
 the first varied key, one series per combination of the other varied keys, with the finder's
 uncertainty as error bars (usually far smaller than the markers); landmarks whose status is not
 ``ok`` are left out and counted in the caption. With a matched scale the energies are drawn in its
-unit.
+unit, except the matched landmark itself (equal for every member there), drawn in the model's E.
 
 ``family-<id>-lines``: the members' transition lines on one (mu, T) plane, in the model's energy
 unit: first-order lines solid, crossovers dotted, second-order lines dashed, critical endpoints as
@@ -68,7 +68,8 @@ def plot_family_landmarks(tables: ScanTables, fid: str) -> FamilyFigure:
     others = keys[1:]
     groups = rows.groupby([f"vary_{k}" for k in others], sort=True) if others else [((), rows)]
     for ax, name in zip(axes, present):
-        in_unit = matched and name in ENERGY and f"{name}_in_unit" in rows
+        anchor = matched and name == rows["match_landmark"].dropna().iloc[0]   # equal for all: drawn in E
+        in_unit = matched and not anchor and name in ENERGY and f"{name}_in_unit" in rows
         ax.set_ylabel(LANDMARK_LABELS[name] + (f" [{matched}]" if in_unit else (" [E]" if name in ENERGY else "")))
         ax.set_xlabel(keys[0])
         for label, g in groups:
