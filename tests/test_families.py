@@ -164,4 +164,15 @@ def test_emd_family_landmarks_equal_separate_models_and_match_a_scale(tmp_path):
         assert r["cep_T_in_unit"] == pytest.approx(r["cep_T"] * 150.0 / r["crossover_T_mu0"], rel=1e-15)
     # the landmarks move with the coupling: a larger g, a hotter crossover (the twins' own numbers)
     assert fam[0]["crossover_T_mu0"] < fam[1]["crossover_T_mu0"] < fam[2]["crossover_T_mu0"]
-    assert isinstance(families_table(models, lines, crit), pa.Table)
+    # the landmarks figure draws exactly the table's values (the matched one in E, the others in MeV)
+    pytest.importorskip("matplotlib")
+    from holoscan.scan.figures.data import ScanTables
+    from holoscan.scan.figures.family import plot_family_landmarks
+
+    df = families_table(models, lines, crit).to_pandas()
+    empty = pa.table({}).to_pandas()
+    fig = plot_family_landmarks(ScanTables(tmp_path, empty, empty, empty, empty, {}, [], df), "dl")
+    drawn = fig.drawn
+    assert [p[1] for p in drawn[("crossover_T_mu0", "g")]] == [r["crossover_T_mu0"] for r in fam]
+    assert [p[1] for p in drawn[("cep_T", "g")]] == [r["cep_T_in_unit"] for r in fam]
+    assert "150 MeV" in fig.caption
