@@ -131,7 +131,8 @@ def same_roots_error(ok_rows, ref_ok):
     """The workflow's worst s error on the reference's converged targets, on the reference's root."""
     worst, found = 0.0, 0
     for T, mu, s_ref in ref_ok:
-        here = ok_rows[np.isclose(ok_rows[:, 0], T, rtol=1e-9, atol=0) & np.isclose(ok_rows[:, 1], mu, rtol=1e-9, atol=1e-12)]
+        same = np.isclose(ok_rows[:, 0], T, rtol=1e-9, atol=0) & np.isclose(ok_rows[:, 1], mu, rtol=1e-9, atol=1e-12)
+        here = ok_rows[same]
         if not len(here):
             continue
         s = here[np.argmin(np.abs(here[:, 2] / s_ref - 1)), 2]

@@ -176,3 +176,43 @@ def test_emd_family_landmarks_equal_separate_models_and_match_a_scale(tmp_path):
     assert [p[1] for p in drawn[("crossover_T_mu0", "g")]] == [r["crossover_T_mu0"] for r in fam]
     assert [p[1] for p in drawn[("cep_T", "g")]] == [r["cep_T_in_unit"] for r in fam]
     assert "150 MeV" in fig.caption
+
+
+def _landmarks(cfg, tmp_path):
+    """families.parquet rows of ``cfg`` from its lines jobs, run in process."""
+    plan = make_plan(validate_scan_config(cfg), tmp_path)
+    write_plan_files(plan)
+    lines, crit = [], []
+    for key in plan.lines_ids:
+        out_l, out_c = plan.lines_outputs(key)
+        run_lines(plan.lines_manifest_file(key), out_l, out_c, log=lambda m: None)
+        lines += pq.read_table(out_l).to_pylist()
+        crit += pq.read_table(out_c).to_pylist()
+    return families_table(json.loads(plan.table_file.read_text())["models"], lines, crit).to_pylist()
+
+
+def test_onset_ratio_of_a_probe_superconductor_family_scales_with_q(tmp_path):
+    # probe limit: the scalar sees only q A_t, so T_c is proportional to q mu and mu/T_c to 1/q
+    # (Hartnoll, Herzog & Horowitz 2008, PRL 101, 031601, probe equations; the scaling is common
+    # practice, no source)
+    cfg = {"scan": "on", "models": [{"id": "hhh", "kind": "charged-scalar", "d": 3, "m_sq": -2.0, "q": 1.0,
+                                     "delta": 2.0, "probe": True, "vary": {"q": [1.0, 2.0]}}],
+           "grid": {"T": [0.02, 0.04, 0.08, 0.12], "mu": [1.0]}}
+    a, b = _landmarks(cfg, tmp_path)
+    assert a["onset_mu_over_T_status"] == b["onset_mu_over_T_status"] == "ok"
+    assert a["onset_mu_over_T"] == pytest.approx(2 * b["onset_mu_over_T"], rel=1e-9)
+    assert a["onset_mu_over_T_err"] < 1e-9 * a["onset_mu_over_T"]
+    assert a["cep_T_status"] == "absent" and a["first_order_T"] == []
+
+
+def test_instability_ratio_of_a_one_charge_family_is_pi_over_sqrt2(tmp_path):
+    # the one-charge black hole (Behrndt, Cvetic & Sabra 1999; Gubser 1998) has its thermodynamic
+    # instability at mu/T = pi/sqrt(2) whatever kappa^2 (derived in tests/reference/onecharge.py)
+    cfg = {"scan": "oc", "models": [{"id": "oc", "kind": "emd", "V": "-(8*exp(phi/sqrt(6)) + 4*exp(-2*phi/sqrt(6)))",
+                                     "f": "exp(-4*phi/sqrt(6))", "source": False, "kappa_sq": 1.0,
+                                     "vary": {"kappa_sq": [0.5]}}],
+           "grid": {"T": [1.0], "mu": [0.2]}}
+    (r,) = _landmarks(cfg, tmp_path)
+    assert r["model_id"] == "oc_kappa_sq0.5" and r["instability_mu_over_T_status"] == "ok"
+    assert abs(r["instability_mu_over_T"] - math.pi / math.sqrt(2)) < 1e-6
+    assert r["crossover_T_mu0_status"] == "absent"

@@ -23,8 +23,9 @@ the figure's name and kind, the model's config block and its rows in the four ta
 name, code hash and version, the notes on unreadable tables and the sources of this package. A
 drawn figure is copied, with its caption, into ``figures/.cache/`` under its stamp; when a later
 run finds the same stamp there, it copies the files back instead of drawing (the bytes are the
-same: the drawing is a function of what the stamp covers). The convergence map shows every model
-and is always drawn. Only the newest entry per figure is kept.
+same: the drawing is a function of what the stamp covers). The convergence map and the family
+figures show several models and are always drawn. Only the newest entry per figure is kept, and
+none for a model no longer in the scan.
 """
 from __future__ import annotations
 
@@ -147,6 +148,16 @@ def _to_cache(done: dict, key: str) -> None:
         pass  # the cache only saves time
 
 
+def _prune_cache(root: Path, names: set) -> None:
+    """Remove cache entries of figures the scan no longer has (a model dropped from the config)."""
+    folder = root / CACHE
+    if not folder.is_dir():
+        return
+    for p in folder.iterdir():
+        if p.is_file() and p.name.rsplit(".", 2)[0] not in names:
+            p.unlink(missing_ok=True)
+
+
 def _draw_and_keep(task) -> dict:
     """Draw ``task`` and, for a model's figure (with a stamp), keep it in the cache."""
     done = _draw(task[:5])
@@ -203,6 +214,7 @@ def write_all(results_dir, models=None, jobs: int = 1) -> list[str]:
         drawn = iter([_draw_and_keep(t) for t in todo])
     done = [d if d is not None else next(drawn) for d in done]
     cached = sum(1 for d in done if d.get("cached"))
+    _prune_cache(root, {Path(t[1]).name for t in tasks if len(t) > 5})
     written = [p for d in done for p in d["files"]]
     names = [Path(p).relative_to(root).as_posix() for p in written]
     removed = []
