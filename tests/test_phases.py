@@ -16,7 +16,7 @@ independent solves, never against stored numbers.
 """
 
 import pytest
-from test_emd_onecharge import ONE_CHARGE, X_MAX, closed
+from test_emd_onecharge import ONE_CHARGE, closed
 
 from holoscan import SolverSettings, Status, model_from_block, solve_point
 from holoscan.phases.dominance import classify
@@ -37,16 +37,8 @@ def demo_lines(demo):
     return locate(demo, SolverSettings(), pts)
 
 
-def test_one_charge_instability_locus_at_pi_over_sqrt2():
-    m = model_from_block(ONE_CHARGE)
-    rows, cps = locate(m, SolverSettings(), [(0.5, 0.1), (1.0, 0.2), (1.0, -0.2)])
-    assert cps == []
-    assert {r.type for r in rows} == {"instability"} and all(r.status == "ok" for r in rows)
-    for r in rows:
-        assert abs(abs(r.mu) / r.T - X_MAX) < 1e-6, r
-        assert r.mu_err / r.T < 1e-6
-    # one row per grid temperature and sign of mu
-    assert sorted(r.mu for r in rows) == pytest.approx([-X_MAX, -0.5 * X_MAX, 0.5 * X_MAX, X_MAX], rel=1e-6)
+# the one-charge instability locus at mu/T = pi/sqrt 2 (one row per grid T and sign of mu) is checked
+# through a lines job in tests/test_families.py (test_instability_ratio_of_a_one_charge_family_...)
 
 
 def test_one_charge_dominant_branch_has_lowest_closed_form_omega():
