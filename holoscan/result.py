@@ -41,7 +41,10 @@ class PointResult:
 
     Conventions: ``P`` is the pressure, the grand potential density is ``Omega = -P``; ``rho`` is the
     charge density conjugate to ``mu`` (``rho = dP/dmu`` at fixed T); ``chi2 = d rho / d mu`` at fixed T;
-    ``cs2 = (dP/d epsilon)`` at fixed s/rho. The reduced ratios use the boundary dimension ``d``:
+    ``cs2 = (dP/d epsilon)`` at fixed s/rho. Higher cumulants ``chi3 = d^2 rho/d mu^2`` and ``chi4 =
+    d^3 rho/d mu^3`` at fixed T (E^(d-3), E^(d-4)); transport from horizon data: ``sigma``, the
+    charge conductivity that stays finite at nonzero density (E^(d-3)), and ``eta_over_s``. These
+    four are NaN for a kind that does not compute them (see each kind). The reduced ratios use the boundary dimension ``d``:
     ``s_hat = s/T^(d-1)``, ``rho_hat = rho/T^(d-1)``, ``P_hat = P/T^d``, ``chi2_hat = chi2/T^(d-2)``.
     ``P_check`` is the pressure by a second, independent route (see each model kind), and
     ``trace_anomaly = (epsilon - (d-1) P) / T^d``. ``stability`` is ``stable`` when the Hessian of P
@@ -63,6 +66,10 @@ class PointResult:
     P: float = math.nan
     chi2: float = math.nan
     cs2: float = math.nan
+    chi3: float = math.nan
+    chi4: float = math.nan
+    sigma: float = math.nan
+    eta_over_s: float = math.nan
     P_check: float = math.nan
     trace_anomaly: float = math.nan
     branch: int = 0
@@ -111,6 +118,8 @@ class PointResult:
         out["P_mismatch"] = (abs(self.P - self.P_check) / abs(self.P) if self.P
                              else (0.0 if self.P_check == self.P else math.nan))
         out.update(self.ratios())
+        out["kurtosis_ratio"] = self.chi4 / self.chi2 if self.chi2 and not math.isnan(self.chi4) else math.nan
+        out["D_charge"] = self.sigma / self.chi2 if self.chi2 and not math.isnan(self.sigma) else math.nan
         return out
 
 

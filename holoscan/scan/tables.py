@@ -9,7 +9,7 @@ import math
 
 import pyarrow as pa
 
-SCHEMA_VERSION = "1.2"
+SCHEMA_VERSION = "1.3"
 META_KEY = b"holoscan"
 
 F64, I64, STR = pa.float64(), pa.int64(), pa.string()
@@ -41,6 +41,12 @@ COLUMNS = [
     ("rho_hat", F64, "1", "rho / T^(d-1)"),
     ("P_hat", F64, "1", "P / T^d"),
     ("chi2_hat", F64, "1", "chi2 / T^(d-2)"),
+    ("chi3", F64, "E^(d-3)", "third cumulant d^2 rho/d mu^2 at fixed T (null: not computed for this kind)"),
+    ("chi4", F64, "E^(d-4)", "fourth cumulant d^3 rho/d mu^3 at fixed T (null: not computed for this kind)"),
+    ("kurtosis_ratio", F64, "E^(-2)", "chi4 / chi2"),
+    ("sigma", F64, "E^(d-3)", "charge conductivity finite at nonzero density: horizon value times (sT/(epsilon+P))^2"),
+    ("eta_over_s", F64, "1", "shear viscosity over entropy density (1/(4 pi) for these two-derivative actions)"),
+    ("D_charge", F64, "E^(-1)", "charge diffusion constant sigma / chi2 (Einstein relation)"),
     ("status", STR, "", "ok | not converged | failed | no solution | out of range"),
     ("message", STR, "", "reason for the status, in words"),
     ("method", STR, "", "solution method"),

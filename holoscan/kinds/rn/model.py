@@ -93,6 +93,33 @@ class RNModel(ModelKind):
         P_mumu = (d - 2) / e2 * (rh ** (d - 2) + mu * (d - 2) * rh ** (d - 3) * r_mu)
         return P_TT, P_Tmu, P_mumu
 
+    def rho_mu_derivatives(self, T: float, mu: float, rh: float) -> tuple[float, float, float]:
+        """``(chi2, chi3, chi4)``: the first three mu-derivatives of ``rho = (d-2) mu r_h^(d-2)/e^2``
+        at fixed T, exact, with those of ``r_h(mu)`` from ``d r^2 - 4 pi T r - (d-2) mu^2/gamma^2 = 0``
+        (implicit differentiation); units E^(d-2), E^(d-3), E^(d-4)."""
+        d, e2, g2 = self.d, self.e_sq, self.gamma_sq
+        n, K, c = d - 2, (d - 2) / e2, (d - 2) / g2
+        den = 2 * d * rh - 4 * math.pi * T
+        r1 = 2 * c * mu / den
+        r2 = (2 * c - 2 * d * r1**2) / den
+        r3 = -6 * d * r1 * r2 / den
+
+        def pw(k):  # rh**(n - k); where n - k < 0 the coefficient that multiplies it is zero
+            return rh ** (n - k) if n - k >= 0 else 0.0
+        chi2 = K * (pw(0) + n * mu * pw(1) * r1)
+        chi3 = K * (2 * n * pw(1) * r1 + n * (n - 1) * mu * pw(2) * r1**2 + n * mu * pw(1) * r2)
+        chi4 = K * (3 * n * (n - 1) * pw(2) * r1**2 + 3 * n * pw(1) * r2
+                    + n * (n - 1) * (n - 2) * mu * pw(3) * r1**3 + 3 * n * (n - 1) * mu * pw(2) * r1 * r2
+                    + n * mu * pw(1) * r3)
+        return chi2, chi3, chi4
+
+    def conductivity(self, T: float, mu: float, rh: float, s: float, rho: float) -> float:
+        """The charge conductivity that stays finite at nonzero density: the horizon (membrane)
+        value ``r_h^(d-3)/e^2`` times ``(s T/(epsilon + P))^2`` with ``epsilon + P = T s + mu rho``
+        (Hartnoll 2009, Class. Quant. Grav. 26, 224002); units E^(d-3)."""
+        w = T * s + mu * rho
+        return rh ** (self.d - 3) / self.e_sq * (T * s / w) ** 2
+
     def closed_form(self, T: float, mu: float) -> PointResult:
         t0 = time.perf_counter()
         d, k2, e2, g2 = self.d, self.kappa_sq, self.e_sq, self.gamma_sq
@@ -101,10 +128,12 @@ class RNModel(ModelKind):
         s = 2 * math.pi * rh ** (d - 1) / k2
         rho = (d - 2) * mu * rh ** (d - 2) / e2
         P_TT, P_Tmu, P_mumu = self.pressure_hessian(T, mu, rh)
+        _, chi3, chi4 = self.rho_mu_derivatives(T, mu, rh)
         eps, P = (d - 1) * M / (2 * k2), M / (2 * k2)
         return PointResult(
             model_id=self.id, kind=self.kind, d=d, method="closed-form", T=T, mu=mu,
             s=s, rho=rho, epsilon=eps, P=P, chi2=P_mumu, P_check=(T * s + mu * rho) / d,
+            chi3=chi3, chi4=chi4, sigma=self.conductivity(T, mu, rh, s, rho), eta_over_s=1 / (4 * math.pi),
             trace_anomaly=(eps - (d - 1) * P) / T**d, stability=local_stability(P_TT, P_Tmu, P_mumu),
             cs2=cs2_from_hessian(T, mu, s, rho, P_TT, P_Tmu, P_mumu),
             status=Status.OK, message="closed form", rtol=0.0, atol=0.0, residual=0.0, error_estimate=0.0,
