@@ -194,6 +194,22 @@ def cmd_summary(args) -> int:
     return 0
 
 
+def cmd_export(args) -> int:
+    from pathlib import Path
+
+    from .scan.export import export_table, write_export
+
+    if args.format not in ("csv", "parquet"):
+        raise InputError("--format", args.format, "must be csv or parquet")
+    header, rows = export_table(args.results_dir, args.model, args.unit, args.scale)
+    out = Path(args.out) if args.out else Path(args.results_dir) / "export" / f"{args.model}.{args.format}"
+    out.parent.mkdir(parents=True, exist_ok=True)
+    write_export(header, rows, out, args.format)
+    print(f"wrote {out}: {len(rows)} grid points of model {args.model} "
+          f"({', '.join(f'{k} {v}' for k, v in sorted(header['statuses'].items()))})")
+    return 0
+
+
 def cmd_figures(args) -> int:
     from .scan.figures import write_figures
 
@@ -291,6 +307,16 @@ def build_parser() -> argparse.ArgumentParser:
     pv.add_argument("--ro-crate", action="store_true",
                     help="also write RESULTS_DIR/ro-crate-metadata.json (RO-Crate 1.1, process run crate)")
     pv.set_defaults(func=cmd_provenance)
+
+    ex = sub.add_parser("export", help="one model's equation of state on its (T, mu) grid, as CSV or Parquet")
+    ex.add_argument("results_dir", metavar="RESULTS_DIR", help="results/<scan> of a finished scan")
+    ex.add_argument("--model", required=True, help="model id (a family member's id for a family)")
+    ex.add_argument("--format", default="csv", help="csv (default) or parquet")
+    ex.add_argument("--unit", default=None, help="a physical energy unit, e.g. MeV (with --scale, or a "
+                    "family member's matched scale)")
+    ex.add_argument("--scale", type=float, default=None, help="the size of the model's energy unit E in --unit")
+    ex.add_argument("--out", default=None, help="output file (default RESULTS_DIR/export/<model>.<format>)")
+    ex.set_defaults(func=cmd_export)
 
     sm = sub.add_parser("summary", help="short text summary of a finished scan")
     sm.add_argument("results_dir", metavar="RESULTS_DIR", help="results/<scan> of a finished scan")
