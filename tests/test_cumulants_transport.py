@@ -67,3 +67,18 @@ def test_transport_from_horizon_data(d):
         N, T = 5.0, 0.6
         (r,) = solve_point(RNModel("sym", 4, kappa_sq=kappa_sq, e_sq=16 * math.pi**2 / N**2), T, 0.0, CLOSED)
         assert r.sigma == pytest.approx(N**2 * T / (16 * math.pi), rel=1e-14)
+
+
+def test_emd_conductivity_reduces_to_rn_and_follows_the_horizon_coupling():
+    # V = -12, f = c (a constant) is Einstein-Maxwell: the rn kind with d = 4 and e^2 = 2 kappa^2/c
+    # (from the two actions), so sigma must be the RN closed form's (the dilaton case is checked
+    # against the horizon formula in tests/test_emd_atlas.py)
+    from holoscan import model_from_block
+
+    for c in (2.5,):
+        emd = model_from_block({"id": "e", "kind": "emd", "kappa_sq": 0.7, "V": "-12", "f": str(c)})
+        rn = RNModel("r", 4, kappa_sq=0.7, e_sq=1.4 / c)
+        for T, mu in ((0.3, 1.2), (1.1, -2.0)):
+            (a,) = solve_point(emd, T, mu)
+            (b,) = solve_point(rn, T, mu, CLOSED)
+            assert a.sigma == pytest.approx(b.sigma, rel=1e-8) and a.eta_over_s == 1 / (4 * math.pi)

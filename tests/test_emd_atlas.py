@@ -115,7 +115,13 @@ def test_demo_matches_the_point_by_point_solver(demo, T, mu):
         assert a.method == "atlas" and d.method == "shooting"
         assert a.stability == d.stability and a.phase_flag == d.phase_flag
         tol = max(1e-8, 10 * (a.error_estimate + d.error_estimate))
-        for k in ("s", "rho", "P", "chi2"):
+        # the conductivity that stays finite at nonzero density: the horizon value
+        # f(phi_h) (s kappa^2/(2 pi))^(1/3)/(2 kappa^2) in AdS5 times (sT/(epsilon+P))^2 (DeWolfe,
+        # Gubser & Rosen 2011, Phys. Rev. D 84, 126014; Hartnoll 2009), f = sech(1.1 phi) evaluated here
+        for r in (a, d):
+            horizon = (r.s / (2 * math.pi)) ** (1 / 3) / (2 * math.cosh(1.1 * r.extra["horizon_phi0"]))
+            assert r.sigma == pytest.approx(horizon * (T * r.s / (T * r.s + mu * r.rho)) ** 2, rel=1e-12)
+        for k in ("s", "rho", "P", "chi2", "sigma"):
             va, vd = getattr(a, k), getattr(d, k)
             if vd == 0.0:
                 assert va == 0.0

@@ -24,7 +24,7 @@ from __future__ import annotations
 
 import json
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -34,7 +34,7 @@ from ...bulk.conformal import solve_unsourced
 from ...errors import InputError
 from ...expr import ParsedCoupling
 from ...numerics.memo import Memo
-from ...result import PointResult
+from ...result import PointResult, Status
 from ...settings import SolverSettings
 from ..base import ModelKind
 from .batch import batch_solver
@@ -129,12 +129,34 @@ class EMDModel(ModelKind):
         V, f = self.couplings()
         if self.scalar_free():
             brane = ChargedBrane(D_BOUNDARY, V, f)
-            return [solve_unsourced(brane, self.kappa_sq, T, mu, settings, model_id=self.id, kind=self.kind)]
-        if settings.method in ("atlas", "auto"):
+            rows = [solve_unsourced(brane, self.kappa_sq, T, mu, settings, model_id=self.id, kind=self.kind)]
+        elif settings.method in ("atlas", "auto"):
             return self.solve_many([(T, mu)], settings)[0]
-        if self.source:
-            return solve_sourced(self, shooter_for(self, V, f), T, mu, settings)
-        return solve_family(self, shooter_for(self, V, f), T, mu, settings)
+        elif self.source:
+            rows = solve_sourced(self, shooter_for(self, V, f), T, mu, settings)
+        else:
+            rows = solve_family(self, shooter_for(self, V, f), T, mu, settings)
+        return [self.with_transport(r) for r in rows]
+
+    def with_transport(self, r: PointResult) -> PointResult:
+        """``r`` with ``eta_over_s = 1/(4 pi)`` (Kovtun, Son & Starinets 2005: any two-derivative
+        Einstein action) and ``sigma``, the conductivity that stays finite at nonzero density: the
+        horizon value ``f(phi_h) e^((d-3) A_h)/(2 kappa^2)``, with ``e^((d-1) A_h) = s kappa^2/(2 pi)``
+        (the Maxwell term is ``f F^2/4`` inside the ``1/(2 kappa^2)`` of the action), times
+        ``(s T/(epsilon + P))^2`` (Hartnoll 2009, Class. Quant. Grav. 26, 224002; DeWolfe, Gubser &
+        Rosen 2011, Phys. Rev. D 84, 126014). Units E^(d-3) = E. NaN where the row has no horizon
+        scalar or no observables."""
+        if r.status is not Status.OK:
+            return r
+        d, k2 = D_BOUNDARY, self.kappa_sq
+        phi_h = 0.0 if self.scalar_free() else r.extra.get("horizon_phi0", math.nan)
+        _, f = self.couplings()
+        w = r.T * r.s + r.mu * r.rho
+        with np.errstate(all="ignore"):
+            f_h = float(f.derivs(float(phi_h))[0]) if math.isfinite(phi_h) else math.nan
+            horizon = f_h / (2 * k2) * (r.s * k2 / (2 * math.pi)) ** ((d - 3) / (d - 1))
+            sigma = horizon * (r.T * r.s / w) ** 2 if w else math.nan
+        return replace(r, sigma=sigma, eta_over_s=1 / (4 * math.pi))
 
     def solve_many(self, targets, settings: SolverSettings = SolverSettings()) -> list[list[PointResult]]:
         """Every brane at each target ``(T, mu)``: one list of results per target. Method ``atlas``
@@ -146,7 +168,7 @@ class EMDModel(ModelKind):
         V, f = self.couplings()
         sh = shooter_for(self, V, f)
         T, mu = (np.array([t[k] for t in targets], dtype=float) for k in (0, 1))
-        return batch_solver(self, sh, settings).solve(T, mu)
+        return [[self.with_transport(r) for r in rows] for rows in batch_solver(self, sh, settings).solve(T, mu)]
 
     # -- the kind contract's optional parts ------------------------------------------------------------
     def has_lines(self) -> bool:
