@@ -134,15 +134,15 @@ def cmd_phase_tables(args) -> int:
     summary = build_phase_tables(args.points, [root / "lines" / f"{k}.parquet" for k in keys],
                                  [root / "lines" / f"{k}-critical.parquet" for k in keys],
                                  args.out_phases, args.out_transitions, args.out_critical,
-                                 doc["models"], args.out_families)
+                                 doc["models"], args.out_families, args.out_isentropes)
     summary_text_ = phase_summary_text(summary)
     if args.summary_text:
         atomic_write_text(Path(args.summary_text), summary_text_)
     if args.summary:
         atomic_write_text(Path(args.summary), dump_json(summary))
     plan_hash = plan_hash_of(Path(args.plan).read_text())
-    for path in (args.out_phases, args.out_transitions, args.out_critical, args.out_families, args.summary,
-                 args.summary_text):
+    for path in (args.out_phases, args.out_transitions, args.out_critical, args.out_families, args.out_isentropes,
+                 args.summary, args.summary_text):
         if path:
             write_seal(path, plan_hash)
     print(summary_text_, end="")
@@ -289,6 +289,7 @@ def build_parser() -> argparse.ArgumentParser:
     pt2.add_argument("--out-transitions", required=True)
     pt2.add_argument("--out-critical", required=True)
     pt2.add_argument("--out-families", default=None)
+    pt2.add_argument("--out-isentropes", default=None)
     pt2.add_argument("--summary", default=None)
     pt2.add_argument("--summary-text", default=None)
     pt2.set_defaults(func=cmd_phase_tables)

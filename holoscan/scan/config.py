@@ -28,7 +28,7 @@ from .members import expand
 POINTS_PER_JOB = 200
 BATCHED_POINTS_PER_JOB = 1000
 #: keys of a model block that belong to the scan, not to the model kind
-SCAN_MODEL_KEYS = ("grid", "solver", "points_per_job")
+SCAN_MODEL_KEYS = ("grid", "solver", "points_per_job", "isentropes")
 
 
 def schema_path() -> Path:
@@ -119,6 +119,7 @@ class ModelPlan:
     points_per_job: int
     explicit_points_per_job: bool = False  # the model block gave its own points_per_job
     family: dict | None = None  # a family member: {"id": family id, "values": {key: value}}
+    isentropes: tuple = ()  # values of s/rho whose paths the phase tables trace (scan/isentropes.py)
 
 
 @dataclass(frozen=True)
@@ -169,7 +170,7 @@ def validate_scan_config(doc, schema: dict | None = None) -> ScanConfig:
         default = BATCHED_POINTS_PER_JOB if model.batched and model.shares_state(settings) else POINTS_PER_JOB
         plans.append(ModelPlan(model, settings, tuple(pts),
                                int(block.get("points_per_job", doc.get("points_per_job", default))),
-                               "points_per_job" in block, family))
+                               "points_per_job" in block, family, _isentropes(block, key)))
     return ScanConfig(
         scan=doc["scan"],
         models=tuple(plans),
@@ -178,6 +179,15 @@ def validate_scan_config(doc, schema: dict | None = None) -> ScanConfig:
         raw=doc,
         job_minutes=float(doc["job_minutes"]) if "job_minutes" in doc else None,
     )
+
+
+def _isentropes(block: dict, key: str) -> tuple:
+    vals = block.get("isentropes", [])
+    out = tuple(v.number(x, f"{key}.isentropes[{i}]") for i, x in enumerate(vals))
+    for i, x in enumerate(out):
+        if x == 0.0:
+            raise InputError(f"{key}.isentropes[{i}]", x, "s/rho must be nonzero")
+    return out
 
 
 def read_scan_config(path, key: str = "--config") -> ScanConfig:

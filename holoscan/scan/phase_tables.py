@@ -11,6 +11,7 @@ from collections import Counter, defaultdict
 import pyarrow as pa
 import pyarrow.parquet as pq
 
+from .isentropes import isentropes_table
 from .landmarks import families_table
 from .store import atomic_write_table
 from .tables import F64, I64, STR, file_metadata, table_from_rows
@@ -128,7 +129,7 @@ def phases_from_points(points: pa.Table) -> list[dict]:
 
 
 def build_phase_tables(points_file, line_files, critical_files, out_phases, out_transitions, out_critical,
-                       models: dict | None = None, out_families=None) -> dict:
+                       models: dict | None = None, out_families=None, out_isentropes=None) -> dict:
     """Write the three phase tables and, with ``out_families``, the families table of the plan's
     ``models`` (:func:`holoscan.scan.landmarks.families_table`); returns a summary dict (counts per model)."""
     points = pq.read_table(points_file)
@@ -146,6 +147,8 @@ def build_phase_tables(points_file, line_files, critical_files, out_phases, out_
     atomic_write_table(table_from_rows(crit, CRITICAL_COLUMNS, meta), out_critical)
     if out_families:
         atomic_write_table(families_table(models or {}, lines, crit, meta), out_families)
+    if out_isentropes:
+        atomic_write_table(isentropes_table(points, models or {}, meta), out_isentropes)
     summary = {}
     for m in order:
         summary[m] = {

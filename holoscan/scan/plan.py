@@ -280,7 +280,8 @@ def _make_plan(cfg: ScanConfig, results_dir="results") -> Plan:
     costs, sizing, cost_of, shares = read_costs(root), [], {}, {}
     for mp in cfg.models:
         spec, solver = mp.model.spec(), mp.settings.canonical()
-        models[mp.model.id] = {"spec": spec, "solver": solver, **({"family": mp.family} if mp.family else {})}
+        models[mp.model.id] = {"spec": spec, "solver": solver, **({"family": mp.family} if mp.family else {}),
+                               **({"isentropes": list(mp.isentropes)} if mp.isentropes else {})}
         ctx = model_context(spec, solver, code)
         if has_lines(mp.model):
             grid = sorted(map(list, mp.points))
@@ -383,7 +384,8 @@ def _make_plan(cfg: ScanConfig, results_dir="results") -> Plan:
 
 #: the tables and summaries of a scan, sealed with the plan hash by the jobs that write them
 TABLE_FILES = ("points.parquet", "summary.json", "summary.txt", "phases.parquet", "transitions.parquet",
-               "critical_points.parquet", "families.parquet", "phase_summary.json", "phase_summary.txt")
+               "critical_points.parquet", "families.parquet", "isentropes.parquet", "phase_summary.json",
+               "phase_summary.txt")
 
 
 def _table_file_used(root: Path, plan_hash: str, text: str) -> Path | None:

@@ -230,6 +230,10 @@ def build(results_dir, figures=None) -> ProvDoc:
         b.gen(fam, pt)
         b.derived(fam, tables["transitions"])
         b.derived(fam, tables["critical_points"])
+    if (root / "isentropes.parquet").is_file():  # paths of fixed s/rho, from the points table
+        iso = b.file(root / "isentropes.parquet", "holoscan:Table")
+        b.gen(iso, pt)
+        b.derived(iso, tables["points"])
 
     acts = {"assemble": asm, "phase-tables": pt}
     for name, (act, src) in SUMMARIES.items():

@@ -59,7 +59,7 @@ def get_final_targets():
     new = [str(PLAN.table_file), *map(str, PLAN.manifests.values()), *(str(PLAN.segment(c)) for c in PLAN.chunk_ids)]
     root = f"results/{PLAN.scan}"
     tables = [f"{root}/{n}" for n in ("points.parquet", "summary.json", "phases.parquet", "transitions.parquet",
-                                      "critical_points.parquet", "families.parquet")]
+                                      "critical_points.parquet", "families.parquet", "isentropes.parquet")]
     # figure_targets and provenance_targets live in figures.smk and provenance.smk
     return [*tables, *new, *get_lines(None), *figure_targets(), *provenance_targets()]
 

@@ -27,6 +27,7 @@ rule phase_tables:
         transitions="results/{scan}/transitions.parquet",
         critical="results/{scan}/critical_points.parquet",
         families="results/{scan}/families.parquet",
+        isentropes="results/{scan}/isentropes.parquet",
         summary="results/{scan}/phase_summary.json",
         summary_text="results/{scan}/phase_summary.txt",
     log:
@@ -35,5 +36,6 @@ rule phase_tables:
     shell:
         "{PY} -m holoscan phase-tables {input.plan} --points {input.points} --out-phases {output.phases} "
         "--out-transitions {output.transitions} --out-critical {output.critical} --out-families {output.families} "
+        "--out-isentropes {output.isentropes} "
         "--summary {output.summary} "
         "--summary-text {output.summary_text} > {log} 2>&1"

@@ -1,7 +1,7 @@
 # Provenance of a finished scan in W3C PROV (PROV-JSON) and its RO-Crate metadata, written once the
 # tables and figures exist. `holoscan summary results/<scan>` prints the scan's text summary.
 PROVENANCE_TABLES = ("points.parquet", "phases.parquet", "transitions.parquet", "critical_points.parquet",
-                     "families.parquet", "summary.json", "summary.txt", "phase_summary.json", "phase_summary.txt")
+                     "families.parquet", "isentropes.parquet", "summary.json", "summary.txt", "phase_summary.json", "phase_summary.txt")
 
 
 rule provenance:
