@@ -64,6 +64,18 @@ def test_isentropes_on_a_mu_grid_have_the_requested_s_over_rho(tmp_path):
            "grid": {"T": [0.25, 0.5], "mu": {"min": 0.0, "max": 2.0, "num": 41}}}
     rows = traced(cfg, tmp_path)
     assert {r["status"] for r in rows} == {"ok"} and len(rows) == 4
+    # the phase diagram draws them where the table puts them
+    pytest.importorskip("matplotlib")
+    import pyarrow as pa
+
+    from holoscan.scan.figures.data import load_scan
+    from holoscan.scan.figures.phase_diagram import plot_phase_diagram
+
+    root = tmp_path / "iso2"
+    pq.write_table(pa.Table.from_pylist(rows), root / "isentropes.parquet")
+    fig = plot_phase_diagram(load_scan(root), "q", "rn")
+    for v in VALUES:
+        assert fig.isentropes[v] == [(r["mu"], r["T"]) for r in rows if r["s_over_rho"] == v]
     for r in rows:
         h = 1e-6
         slope = (s_over_rho(r["T"], r["mu"] + h) - s_over_rho(r["T"], r["mu"] - h)) / (2 * h)

@@ -26,7 +26,7 @@ from ...errors import InputError
 from ...kinds import kind_class
 from ...validate import finite_or
 
-TABLES = ("points", "phases", "transitions", "critical_points", "families")
+TABLES = ("points", "phases", "transitions", "critical_points", "families", "isentropes")
 
 #: largest magnitude drawn: matplotlib widens an axis by a margin, and beyond about 1e300 (or 300
 #: decades on a logarithmic axis) that margin overflows
@@ -52,6 +52,7 @@ class ScanTables:
     meta: dict
     notes: list = field(default_factory=list)
     families: pd.DataFrame = field(default_factory=pd.DataFrame)
+    isentropes: pd.DataFrame = field(default_factory=pd.DataFrame)
 
     @property
     def scan(self) -> str:
@@ -154,7 +155,7 @@ def load_scan(results_dir) -> ScanTables:
     points = _numeric(table.to_pandas())
     return ScanTables(root, points, _read(root / "phases.parquet", notes),
                       _read(root / "transitions.parquet", notes), _read(root / "critical_points.parquet", notes),
-                      meta, notes, _read(root / "families.parquet", notes))
+                      meta, notes, _read(root / "families.parquet", notes), _read(root / "isentropes.parquet", notes))
 
 
 def drawable(values, log: bool = False) -> np.ndarray:

@@ -8,6 +8,9 @@ a second-order line or a crossover as a change of its slope. Cells without a dom
 branch are left white. The dominant phase's name is shown by the marker of each grid point
 (up to 600 points).
 
+Isentropes (``isentropes.parquet``, rows ``ok`` or ``coexistence``), when the model has any: fine
+dark dotted lines, their ``s/rho`` values in the legend.
+
 Lines on top (``transitions.parquet``): first-order solid, second-order dashed, crossover dotted,
 instability loci (spinodals, folds of a conformal family) thin; line points are joined in order of
 mu on each side of ``mu = 0``, and first-order lines and spinodals are drawn to the model's critical
@@ -70,6 +73,7 @@ class PhaseDiagram:
     T_edges: np.ndarray | None = None
     marked: dict = field(default_factory=dict)
     critical: list = field(default_factory=list)
+    isentropes: dict = field(default_factory=dict)
     caption: str = ""
 
 
@@ -279,6 +283,15 @@ def plot_phase_diagram(tables: ScanTables, model_id: str, kind: str) -> PhaseDia
                               label="critical point (error bars: T_err, mu_err)"))
     if not len(tr) and not len(cp):
         handles.append(Patch(facecolor="none", edgecolor="none", label="no transition lines located\nfor this model"))
+    iso = tables.rows("isentropes", model_id)
+    if len(iso) and {"s_over_rho", "mu", "T", "status"} <= set(iso.columns):
+        for v, g in iso[iso["status"].isin(["ok", "coexistence"])].groupby("s_over_rho", sort=True):
+            g = g.sort_values("T")
+            ax.plot(g["mu"], g["T"], color="0.15", ls=(0, (1, 1.5)), lw=1.1, zorder=6)
+            out.isentropes[float(v)] = list(zip(g["mu"].astype(float), g["T"].astype(float)))
+        if out.isentropes:
+            handles.append(Line2D([], [], color="0.15", ls=(0, (1, 1.5)), lw=1.1,
+                                  label="isentropes s/rho = " + ", ".join(f"{v:g}" for v in out.isentropes)))
 
     for key, statuses in (("failed", FAILED_STATUSES), ("unconverged", UNCONVERGED_STATUSES)):
         marker, face, edge, text = BAD_MARKERS[key]

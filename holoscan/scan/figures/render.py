@@ -103,7 +103,7 @@ def stamp(tables: ScanTables, what: str, mid: str, kind: str, sources: str) -> s
     head = [sources, what, mid, kind, tables.scan, tables.code_hash, tables.package_version,
             tables.notes, tables.block(mid)]
     h.update(json.dumps(head, sort_keys=True, default=str).encode())
-    for name in ("points", "phases", "transitions", "critical"):
+    for name in ("points", "phases", "transitions", "critical", "isentropes"):
         rows = tables.rows(name, mid)
         h.update(f"\0{name}\0{list(rows.columns)}\0{len(rows)}\0".encode())
         if len(rows):
