@@ -826,6 +826,7 @@ class ParsedCoupling:
         chain = self._chain()
         self._d1, self._d2 = chain[1], chain[2]
         self._program1 = _Program((self.expr, self._d1))
+        self._program_d1 = _Program((self._d1,))
         self._program2 = _Program((self.expr, self._d1, self._d2))
         self._at0 = np.array(_evaluate(chain, 0.0))
         fact = np.array([math.factorial(j) for j in range(self.DEGREE + 1)], dtype=float)
@@ -874,6 +875,17 @@ class ParsedCoupling:
                 with np.errstate(all="ignore"):
                     d1 = _blend(near, x, self._c1, d1)
         return v, d1
+
+    def derivative1(self, phi):
+        """``f'`` only (as :meth:`derivs1` gives it, to the bit), for equations that need no ``f``."""
+        (d1,) = _evaluate((), phi, self._program_d1)
+        if self._series:
+            x = np.asarray(phi, dtype=float)
+            near = np.abs(x) < self.SERIES_RADIUS
+            if np.any(near):
+                with np.errstate(all="ignore"):
+                    d1 = _blend(near, x, self._c1, d1)
+        return d1
 
     def __eq__(self, other):
         return isinstance(other, ParsedCoupling) and self.expr is other.expr

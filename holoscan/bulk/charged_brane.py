@@ -49,6 +49,14 @@ def _derivs1(coupling, phi):
     return v, d1
 
 
+def _derivative1(coupling, phi):
+    """First derivative only (a coupling may offer a cheaper ``derivative1``)."""
+    fast = getattr(coupling, "derivative1", None)
+    if fast is not None:
+        return fast(phi)
+    return _derivs1(coupling, phi)[1]
+
+
 @dataclass(frozen=True)
 class Constant:
     """A constant coupling ``c`` (derivatives zero)."""
@@ -97,7 +105,7 @@ class ChargedBrane:
             return self._rhs_scalar(y)
         d = self.d
         A, dA, h, dh, _, dPh, ph, dph = y
-        _, Vp = _derivs1(self.V, ph)
+        Vp = _derivative1(self.V, ph)
         f, fp = _derivs1(self.f, ph)
         e2A = np.exp(-2.0 * A)
         ddA = -dph * dph / (2.0 * (d - 1))
@@ -110,7 +118,7 @@ class ChargedBrane:
         """The same right-hand side for one state, in plain floats (several times faster)."""
         d = self.d
         A, dA, h, dh, _, dPh, ph, dph = y.tolist()
-        _, Vp = _derivs1(self.V, ph)
+        Vp = _derivative1(self.V, ph)
         f, fp = _derivs1(self.f, ph)
         e2A = math.exp(-2.0 * A)
         E = e2A * dPh * dPh
