@@ -856,36 +856,28 @@ class ParsedCoupling:
     def derivs(self, phi):
         """``(f, f', f'')`` at ``phi`` (scalar -> floats, array -> arrays of the same shape)."""
         v, d1, d2 = _evaluate((), phi, self._program2)
-        if self._series:
-            x = np.asarray(phi, dtype=float)
-            near = np.abs(x) < self.SERIES_RADIUS
-            if np.any(near):
-                with np.errstate(all="ignore"):
-                    d1 = _blend(near, x, self._c1, d1)
-                    d2 = _blend(near, x, self._c2, d2)
-        return v, d1, d2
+        return v, self._near_zero(phi, d1, self._c1), self._near_zero(phi, d2, self._c2)
 
     def derivs1(self, phi):
         """``(f, f')`` only: what the field equations need, at two thirds of the cost of :meth:`derivs`."""
         v, d1 = _evaluate((), phi, self._program1)
-        if self._series:
-            x = np.asarray(phi, dtype=float)
-            near = np.abs(x) < self.SERIES_RADIUS
-            if np.any(near):
-                with np.errstate(all="ignore"):
-                    d1 = _blend(near, x, self._c1, d1)
-        return v, d1
+        return v, self._near_zero(phi, d1, self._c1)
 
     def derivative1(self, phi):
         """``f'`` only (as :meth:`derivs1` gives it, to the bit), for equations that need no ``f``."""
         (d1,) = _evaluate((), phi, self._program_d1)
-        if self._series:
-            x = np.asarray(phi, dtype=float)
-            near = np.abs(x) < self.SERIES_RADIUS
-            if np.any(near):
-                with np.errstate(all="ignore"):
-                    d1 = _blend(near, x, self._c1, d1)
-        return d1
+        return self._near_zero(phi, d1, self._c1)
+
+    def _near_zero(self, phi, direct, coeffs):
+        """``direct`` with the Taylor series (``coeffs``) where ``|phi| < SERIES_RADIUS`` (see the class notes)."""
+        if not self._series:
+            return direct
+        x = np.asarray(phi, dtype=float)
+        near = np.abs(x) < self.SERIES_RADIUS
+        if not np.any(near):
+            return direct
+        with np.errstate(all="ignore"):
+            return _blend(near, x, coeffs, direct)
 
     def __eq__(self, other):
         return isinstance(other, ParsedCoupling) and self.expr is other.expr

@@ -125,6 +125,19 @@ def test_a_mistake_in_a_family_names_the_member_and_key(change, key, words):
     assert len(text.splitlines()) == 1
 
 
+def _lines(cfg, tmp_path):
+    """(the plan's models, line rows, critical-point rows) of ``cfg``: its lines jobs, run in process."""
+    plan = make_plan(validate_scan_config(cfg), tmp_path)
+    write_plan_files(plan)
+    lines, crit = [], []
+    for key in plan.lines_ids:
+        out_l, out_c = plan.lines_outputs(key)
+        run_lines(plan.lines_manifest_file(key), out_l, out_c, log=lambda m: None)
+        lines += pq.read_table(out_l).to_pylist()
+        crit += pq.read_table(out_c).to_pylist()
+    return json.loads(plan.table_file.read_text())["models"], lines, crit
+
+
 def test_emd_family_landmarks_equal_separate_models_and_match_a_scale(tmp_path):
     # three members of an invented dilaton family (g varied) and the same three models written out by
     # hand: the lines of each are located by the same finders, so a member's landmarks in
@@ -139,15 +152,7 @@ def test_emd_family_landmarks_equal_separate_models_and_match_a_scale(tmp_path):
              for g in (0.58, 0.6, 0.62)]
     cfg = {"scan": "lm", "models": [family, *twins],
            "grid": {"T": [0.17, 0.27], "mu": [0.0, 0.8]}}
-    plan = make_plan(validate_scan_config(cfg), tmp_path)
-    write_plan_files(plan)
-    lines, crit = [], []
-    for key in plan.lines_ids:
-        out_l, out_c = plan.lines_outputs(key)
-        run_lines(plan.lines_manifest_file(key), out_l, out_c, log=lambda m: None)
-        lines += pq.read_table(out_l).to_pylist()
-        crit += pq.read_table(out_c).to_pylist()
-    models = json.loads(plan.table_file.read_text())["models"]
+    models, lines, crit = _lines(cfg, tmp_path)
     fam = families_table(models, lines, crit).to_pylist()
     assert [r["model_id"] for r in fam] == ["dl_g0.58", "dl_g0.6", "dl_g0.62"]
     for r, g in zip(fam, (0.58, 0.6, 0.62)):
@@ -180,15 +185,7 @@ def test_emd_family_landmarks_equal_separate_models_and_match_a_scale(tmp_path):
 
 def _landmarks(cfg, tmp_path):
     """families.parquet rows of ``cfg`` from its lines jobs, run in process."""
-    plan = make_plan(validate_scan_config(cfg), tmp_path)
-    write_plan_files(plan)
-    lines, crit = [], []
-    for key in plan.lines_ids:
-        out_l, out_c = plan.lines_outputs(key)
-        run_lines(plan.lines_manifest_file(key), out_l, out_c, log=lambda m: None)
-        lines += pq.read_table(out_l).to_pylist()
-        crit += pq.read_table(out_c).to_pylist()
-    return families_table(json.loads(plan.table_file.read_text())["models"], lines, crit).to_pylist()
+    return families_table(*_lines(cfg, tmp_path)).to_pylist()
 
 
 def test_onset_ratio_of_a_probe_superconductor_family_scales_with_q(tmp_path):
@@ -214,18 +211,13 @@ def test_instability_ratio_of_a_one_charge_family_is_pi_over_sqrt2(tmp_path):
                                      "f": "exp(-4*phi/sqrt(6))", "source": False, "kappa_sq": 1.0,
                                      "vary": {"kappa_sq": [0.5]}}],
            "grid": {"T": [0.5, 1.0], "mu": [-0.2, 0.1, 0.2]}}
-    plan = make_plan(validate_scan_config(cfg), tmp_path)
-    write_plan_files(plan)
-    (key,) = plan.lines_ids
-    out_l, out_c = plan.lines_outputs(key)
-    run_lines(plan.lines_manifest_file(key), out_l, out_c, log=lambda m: None)
-    rows, crit = pq.read_table(out_l).to_pylist(), pq.read_table(out_c).to_pylist()
+    models, rows, crit = _lines(cfg, tmp_path)
     assert crit == [] and {r["type"] for r in rows} == {"instability"}
     assert all(r["status"] == "ok" for r in rows)
     for r in rows:
         assert abs(abs(r["mu"]) / r["T"] - x_max) < 1e-6 and r["mu_err"] / r["T"] < 1e-6
     assert sorted(r["mu"] for r in rows) == pytest.approx([-x_max, -0.5 * x_max, 0.5 * x_max, x_max], rel=1e-6)
-    (r,) = families_table(json.loads(plan.table_file.read_text())["models"], rows, crit).to_pylist()
+    (r,) = families_table(models, rows, crit).to_pylist()
     assert r["model_id"] == "oc_kappa_sq0.5" and r["instability_mu_over_T_status"] == "ok"
     assert abs(r["instability_mu_over_T"] - x_max) < 1e-6
     assert r["crossover_T_mu0_status"] == "absent"
