@@ -246,14 +246,6 @@ def assemble(table_file, out_table, summary_json, summary_txt=None) -> dict:
     return summary
 
 
-def summarize(table: pa.Table, model_order) -> dict:
-    """Counts of rows by status, per model (every status listed, zeros included)."""
-    counts = {m: Counter() for m in model_order}
-    for m, s in zip(table["model_id"].to_pylist(), table["status"].to_pylist()):
-        counts[m][s] += 1
-    return {m: {st.value: c[st.value] for st in Status} for m, c in counts.items()}
-
-
 def summary_text(summary: dict, scan: str) -> str:
     cols = [st.value for st in Status]
     w = max([len(m) for m in summary] + [5])
