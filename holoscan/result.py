@@ -44,7 +44,10 @@ class PointResult:
     ``cs2 = (dP/d epsilon)`` at fixed s/rho. Higher cumulants ``chi3 = d^2 rho/d mu^2`` and ``chi4 =
     d^3 rho/d mu^3`` at fixed T (E^(d-3), E^(d-4)); transport from horizon data: ``sigma``, the
     charge conductivity that stays finite at nonzero density (E^(d-3)), and ``eta_over_s``. These
-    four are NaN for a kind that does not compute them (see each kind). The reduced ratios use the boundary dimension ``d``:
+    four are NaN for a kind that does not compute them (see each kind). ``chi3_err`` and ``chi4_err``
+    are absolute bounds on the errors of chi3 and chi4 (their units); they are kept apart from
+    ``error_estimate`` (which covers s, rho, epsilon, P, chi2, cs2 and decides ``status``), so a
+    fourth derivative that is harder to get never downgrades the equation of state. The reduced ratios use the boundary dimension ``d``:
     ``s_hat = s/T^(d-1)``, ``rho_hat = rho/T^(d-1)``, ``P_hat = P/T^d``, ``chi2_hat = chi2/T^(d-2)``.
     ``P_check`` is the pressure by a second, independent route (see each model kind), and
     ``trace_anomaly = (epsilon - (d-1) P) / T^d``. ``stability`` is ``stable`` when the Hessian of P
@@ -68,6 +71,8 @@ class PointResult:
     cs2: float = math.nan
     chi3: float = math.nan
     chi4: float = math.nan
+    chi3_err: float = math.nan
+    chi4_err: float = math.nan
     sigma: float = math.nan
     eta_over_s: float = math.nan
     P_check: float = math.nan

@@ -9,7 +9,7 @@ import math
 
 import pyarrow as pa
 
-SCHEMA_VERSION = "1.3"
+SCHEMA_VERSION = "1.4"
 META_KEY = b"holoscan"
 
 F64, I64, STR = pa.float64(), pa.int64(), pa.string()
@@ -43,6 +43,8 @@ COLUMNS = [
     ("chi2_hat", F64, "1", "chi2 / T^(d-2)"),
     ("chi3", F64, "E^(d-3)", "third cumulant d^2 rho/d mu^2 at fixed T (null: not computed for this kind)"),
     ("chi4", F64, "E^(d-4)", "fourth cumulant d^3 rho/d mu^3 at fixed T (null: not computed for this kind)"),
+    ("chi3_err", F64, "E^(d-3)", "bound on the absolute error of chi3 (not part of error_estimate)"),
+    ("chi4_err", F64, "E^(d-4)", "bound on the absolute error of chi4 (not part of error_estimate)"),
     ("kurtosis_ratio", F64, "E^(-2)", "chi4 / chi2"),
     ("sigma", F64, "E^(d-3)", "charge conductivity finite at nonzero density: horizon value times (sT/(epsilon+P))^2"),
     ("eta_over_s", F64, "1", "shear viscosity over entropy density (1/(4 pi) for these two-derivative actions)"),
@@ -72,7 +74,7 @@ COLUMNS = [
 
 #: columns whose values are physics: identical, bit for bit, for the same config and code
 PHYSICS_COLUMNS = ["model_id", "kind", "d", "branch", "T", "mu", "s", "rho", "epsilon", "P", "Omega",
-                   "chi2", "cs2", "P_check", "trace_anomaly", "stability", "phase", "phase_flag", "dominant",
+                   "chi2", "cs2", "chi3", "chi4", "chi3_err", "chi4_err", "sigma", "eta_over_s", "P_check", "trace_anomaly", "stability", "phase", "phase_flag", "dominant",
                    "s_hat", "rho_hat", "P_hat", "chi2_hat", "status", "method",
                    "error_estimate", "residual", "point_key"]
 
