@@ -47,7 +47,8 @@ class PointResult:
     four are NaN for a kind that does not compute them (see each kind). ``chi3_err`` and ``chi4_err``
     are absolute bounds on the errors of chi3 and chi4 (their units); they are kept apart from
     ``error_estimate`` (which covers s, rho, epsilon, P, chi2, cs2 and decides ``status``), so a
-    fourth derivative that is harder to get never downgrades the equation of state. The reduced ratios use the boundary dimension ``d``:
+    fourth derivative that is harder to get never downgrades the equation of state. The reduced
+    ratios use the boundary dimension ``d``:
     ``s_hat = s/T^(d-1)``, ``rho_hat = rho/T^(d-1)``, ``P_hat = P/T^d``, ``chi2_hat = chi2/T^(d-2)``.
     ``P_check`` is the pressure by a second, independent route (see each model kind), and
     ``trace_anomaly = (epsilon - (d-1) P) / T^d``. ``stability`` is ``stable`` when the Hessian of P

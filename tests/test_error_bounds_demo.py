@@ -11,7 +11,7 @@ reference's own stated error (holographic renormalisation: de Haro, Skenderis & 
 Commun. Math. Phys. 217, 595; Bianchi, Freedman & Skenderis 2002, Nucl. Phys. B 631, 159).
 """
 import pytest
-from reference.emd_zgauge import solve
+from reference.emd_zgauge import _newton, solve
 from reference.models import DEMO_F, DEMO_V, demo
 
 from holoscan import Status
@@ -45,3 +45,48 @@ def test_near_misses_are_vouched_for_by_a_second_method(rows, reference_model, t
         for q in ("s", "rho", "chi2", "cs2"):
             actual = abs(getattr(row, q) / ref[q] - 1)
             assert actual <= row.error_estimate + ref["error"][q], (q, actual, row.error_estimate, ref["error"][q])
+
+
+def _reference_rho(model, T, mu, seed):
+    """rho of the reference solver's own root at (T, mu), from a seed (phi_h, u) in its coordinates."""
+    x, th, _ = _newton(model, T, mu, seed)
+    return th["rho"], x
+
+
+@pytest.mark.parametrize("target", [TARGETS[2]])
+def test_higher_cumulants_against_differences_of_the_reference(rows, reference_model, target):
+    # scenario: the dominant branch next to the first-order line, where chi4/chi2 is large
+    # chi3 = d^2 rho/d mu^2 and chi4 = d^3 rho/d mu^3 of the dominant row (exact derivatives of the
+    # atlas) against central differences of rho from the reference solver's own roots at
+    # mu + k delta, k = 0, +-1, +-2, +-4, +-8 (its gauge, shots and Newton iteration; only the starting
+    # guess comes from the row). Richardson-extrapolated; the differences' error is the change
+    # of the extrapolant made with steps (2 delta, 4 delta) instead of (delta, 2 delta), plus the
+    # reference's noise in rho (1e-12 relative: its shots at rtol 2.5e-14) over delta^2 and delta^3
+    # (central differences and Richardson: common practice, no source).
+    T, mu = target
+    row = max(rows[target], key=lambda r: r.P)         # the dominant branch: the largest pressure
+    assert row.method == "atlas" and row.status is Status.OK, row.message
+    delta = 0.001
+    seed = (row.extra["horizon_phi0"], abs(row.extra["horizon_u"]))
+    rho = {}
+    for k in (0, 1, -1, 2, -2, 4, -4, 8, -8):
+        rho[k], _ = _reference_rho(reference_model, T, mu + k * delta, seed)
+    noise = 1e-12 * abs(rho[0])
+
+    def d2(m):
+        return (rho[m] - 2 * rho[0] + rho[-m]) / (m * delta) ** 2
+
+    def d3(m):
+        return (rho[2 * m] - 2 * rho[m] + 2 * rho[-m] - rho[-2 * m]) / (2 * (m * delta) ** 3)
+
+    c3 = (4 * d2(1) - d2(2)) / 3
+    c3b = (4 * d2(2) - d2(4)) / 3
+    c4 = (4 * d3(1) - d3(2)) / 3
+    c4b = (4 * d3(2) - d3(4)) / 3
+    e3 = abs(c3 - c3b) + 8 * noise / delta**2
+    e4 = abs(c4 - c4b) + 8 * noise / delta**3
+    assert abs(row.chi3 - c3) <= row.chi3_err + e3, (row.chi3, c3, row.chi3_err, e3)
+    assert abs(row.chi4 - c4) <= row.chi4_err + e4, (row.chi4, c4, row.chi4_err, e4)
+    # the check has teeth: the two routes' combined uncertainty is far below the cumulants themselves
+    assert row.chi3_err + e3 < 1e-3 * max(abs(row.chi3), abs(row.chi2) / T)
+    assert row.chi4_err + e4 < 1e-2 * max(abs(row.chi4), abs(row.chi2) / T**2)

@@ -9,7 +9,7 @@ import math
 
 import numpy as np
 import pytest
-from test_emd_onecharge import ONE_CHARGE, closed
+from test_emd_onecharge import ONE_CHARGE, closed, cumulants
 
 from holoscan import Status, model_from_block
 
@@ -45,12 +45,17 @@ def test_both_branches_at_small_mu_over_T(model):
     assert min(r.extra["horizon_phi0"] for r in rows) < -7.5
 
 
-def test_estimates_bound_the_actual_error_on_a_grid(model):
-    T = np.linspace(0.4, 2.0, 6)
-    X = np.linspace(0.0, 2.0, 6)
-    targets = [(t, x * t) for t in T for x in X]
+GRID = [(t, x * t) for t in np.linspace(0.4, 2.0, 6) for x in np.linspace(0.0, 2.0, 6)]
+
+
+@pytest.fixture(scope="module")
+def grid_rows(model):
+    return model.solve_many(GRID)
+
+
+def test_estimates_bound_the_actual_error_on_a_grid(grid_rows):
     n_ok = 0
-    for (t, mu), rows in zip(targets, model.solve_many(targets)):
+    for (t, mu), rows in zip(GRID, grid_rows):
         assert len(rows) == (1 if mu == 0 else 2)
         for branch, r in enumerate(sorted(rows, key=lambda r: -r.s)):
             act = _actual(r, t, mu, branch)
@@ -58,7 +63,27 @@ def test_estimates_bound_the_actual_error_on_a_grid(model):
             if r.status is Status.OK:
                 n_ok += 1
                 assert act <= 1e-8
-    assert n_ok >= len(targets)   # at least as many ok rows as targets (every stable branch)
+    assert n_ok >= len(GRID)   # at least as many ok rows as targets (every stable branch)
+
+
+def test_higher_cumulants_are_bounded_by_their_estimates_on_the_grid(grid_rows):
+    # chi3, chi4 (exact derivatives of the atlas) against mpmath derivatives of the closed form, on
+    # both branches away from mu = 0 (where the unstable branch leaves the scan); at mu = 0, chi3
+    # vanishes by the symmetry rho(-mu) = -rho(mu) and chi4 is the closed form's limit
+    worst = 0.0
+    for (t, mu), rows in zip(GRID, grid_rows):
+        for branch, r in enumerate(sorted(rows, key=lambda r: -r.s)):
+            if r.method != "atlas":
+                continue
+            c3, c4 = cumulants(t, mu if mu > 0 else 1e-30, branch)
+            for got, ref, est in ((r.chi3, c3, r.chi3_err), (r.chi4, c4, r.chi4_err)):
+                assert abs(got - ref) <= est, (t, mu, branch, got, ref, est)
+                worst = max(worst, abs(got - ref) / est)
+            if r.status is Status.OK:
+                # the stable branch's cumulants are accurate, not only bounded
+                assert r.chi3_err <= 1e-6 * max(abs(c3), abs(r.chi2) / t)
+                assert r.chi4_err <= 1e-5 * max(abs(c4), abs(r.chi2) / t**2)
+    assert 0.0 < worst <= 1.0
 
 
 def test_a_branch_beyond_the_scan_is_announced(model):

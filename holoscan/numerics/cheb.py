@@ -16,6 +16,8 @@ sampled). Coefficients follow from node values by the discrete cosine transform.
 """
 from __future__ import annotations
 
+import math
+
 import numpy as np
 from numpy.polynomial import Chebyshev
 from numpy.polynomial import chebyshev as C
@@ -146,6 +148,32 @@ class PatchSet:
             grad[sel, :, 0] = np.einsum("ki,fij,kj->kf", B0, d0[q], B1, optimize=True) / h0[:, None]
             grad[sel, :, 1] = np.einsum("ki,fij,kj->kf", B0, d1[q], B1, optimize=True) / h1[:, None]
         return val, grad
+
+    def taylor(self, x0, x1, order: int, patch=None, coeffs=None) -> np.ndarray:
+        """Taylor coefficients (M, m, order+1, order+1) of every function at the points:
+        ``[i, j]`` is ``d^(i+j) f/dx0^i dx1^j / (i! j!)`` for ``i + j <= order`` (0 above), the
+        input of :mod:`holoscan.numerics.jets`; NaN outside every patch. ``coeffs`` as in
+        :meth:`evaluate`. Each derivative is the exact derivative of the patch's polynomial."""
+        x0, x1 = np.atleast_1d(np.asarray(x0, float)), np.atleast_1d(np.asarray(x1, float))
+        p = self.locate(x0, x1) if patch is None else np.asarray(patch)
+        M, n = len(x0), self.n
+        out = np.full((M, self.m, order + 1, order + 1), np.nan)
+        out[p >= 0] = 0.0
+        c = self.coeffs if coeffs is None else coeffs
+        for q in np.unique(p[p >= 0]):
+            sel = np.flatnonzero(p == q)
+            z0, z1, h0, h1 = self.local(np.full(len(sel), q), x0[sel], x1[sel])
+            B0, B1 = basis(z0, n), basis(z1, n)
+            d0 = c[q]
+            for i in range(order + 1):
+                dij = d0
+                for j in range(order + 1 - i):
+                    k0, k1 = dij.shape[1], dij.shape[2]
+                    v = np.einsum("ki,fij,kj->kf", B0[:, :k0], dij, B1[:, :k1], optimize=True)
+                    out[sel, :, i, j] = v / (h0[:, None] ** i * h1[:, None] ** j * math.factorial(i) * math.factorial(j))
+                    dij = C.chebder(dij, axis=2) if k1 > 1 else np.zeros((dij.shape[0], k0, 1))
+                d0 = C.chebder(d0, axis=1) if d0.shape[1] > 1 else np.zeros((d0.shape[0], 1, d0.shape[2]))
+        return out
 
     def truncated(self, drop: int = 2) -> np.ndarray:
         """The coefficients with the last ``drop`` orders in each direction removed."""

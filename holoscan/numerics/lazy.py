@@ -204,6 +204,12 @@ class LazyAtlas:
         val, grad = ps.evaluate(x0, x1, patch=p, coeffs=coeffs)
         return val, grad, p
 
+    def taylor(self, x0, x1, order: int, truncate: int = 0) -> np.ndarray:
+        """Taylor coefficients up to ``order`` at the points (see :meth:`.cheb.PatchSet.taylor`)."""
+        ps = self.patches
+        return ps.taylor(x0, x1, order, patch=self.locate(x0, x1),
+                         coeffs=ps.truncated(truncate) if truncate else None)
+
     def flags(self, p: np.ndarray) -> np.ndarray:
         f = np.array(self.leaf_flags + [HOLE], dtype=np.int8)
         return f[np.where(p >= 0, p, len(self.leaf_flags))]

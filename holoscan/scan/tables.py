@@ -74,7 +74,8 @@ COLUMNS = [
 
 #: columns whose values are physics: identical, bit for bit, for the same config and code
 PHYSICS_COLUMNS = ["model_id", "kind", "d", "branch", "T", "mu", "s", "rho", "epsilon", "P", "Omega",
-                   "chi2", "cs2", "chi3", "chi4", "chi3_err", "chi4_err", "sigma", "eta_over_s", "P_check", "trace_anomaly", "stability", "phase", "phase_flag", "dominant",
+                   "chi2", "cs2", "chi3", "chi4", "chi3_err", "chi4_err", "sigma", "eta_over_s",
+                   "P_check", "trace_anomaly", "stability", "phase", "phase_flag", "dominant",
                    "s_hat", "rho_hat", "P_hat", "chi2_hat", "status", "method",
                    "error_estimate", "residual", "point_key"]
 

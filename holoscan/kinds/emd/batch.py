@@ -57,6 +57,8 @@ ROUNDOFF = 1e-13
 #: the one-charge closed form on a 60 x 60 (T, mu/T) grid the proxy alone fell short of the actual
 #: chi2 error by up to 3.6 times near mu/T = 1.93 (where the family turns), so it is taken 10 times
 DERIV_SAFETY = 10.0
+#: chi3, chi4: the atlas less its last k orders for each k here gives the truncation proxy (the largest change)
+CUMULANT_TRUNCATIONS = (1, 2, 3)
 #: an atlas row whose chi2 or cs2 estimate misses accept_error by at most this factor (all else
 #: within it) has its derivatives checked by a second method (finite differences of direct shots)
 NEAR_MISS = 10.0
@@ -275,6 +277,8 @@ class BatchSolver:
         u = C[:, 1]
         direct_vals = self._values(o, u)
         fi, oi = ([0, 1], [2, 3]) if self.sourced else ([1, 0], [2, 3])
+        x = np.abs(mu) / T
+        sign = np.where(mu < 0, -1.0, 1.0)
         with np.errstate(all="ignore"):
             sources = {
                 "atlas": direct_vals - vals,
@@ -285,8 +289,6 @@ class BatchSolver:
             shifts = {k: np.abs(_at_fixed_target(dv, grads, fi, oi)) for k, dv in sources.items()}
             dO = sum(shifts.values())                                   # (M, 2): |d s|, |d rho| (or hats)
             dO = dO + 4.0 * np.asarray(norms)[:, None] * np.abs(vals[:, oi])   # the Newton residual
-        x = np.abs(mu) / T
-        sign = np.where(mu < 0, -1.0, 1.0)
         Jt, Jd, s, rho, f2 = self._jacobians(T, vals, grads, L)
         Jt_t, Jd_t, _, _, _ = self._jacobians(T, vals, grads_t, L)
         P_TT, P_Tmu, P_mumu, maxwell = hessian_from_jacobians(Jt, Jd)
@@ -294,6 +296,7 @@ class BatchSolver:
         P_TTt, P_Tmut, P_mumut, _ = hessian_from_jacobians(Jt_t, Jd_t)
         P_TTt, P_Tmut, P_mumut = P_TTt * f2, P_Tmut * f2, P_mumut * f2
         stable = (P_TT > 0) & (P_TT * P_mumu - P_Tmu**2 > 0)
+        chi3, chi4, chi3_err, chi4_err = self._cumulants(C, T, sign, P_mumu)
         # |d s|, |d rho| in config units
         unit = L ** (d - 1) if self.sourced else T ** (d - 1)
         ds, drho = dO[:, 0] * unit, dO[:, 1] * unit
@@ -303,6 +306,10 @@ class BatchSolver:
             e_s = ds / np.abs(s)
             e_rho = drho / np.maximum(np.abs(rho), RHO_FLOOR * np.abs(s))
             e_vals = np.maximum(e_s, e_rho)
+            # the values' own error carried to chi3, chi4 relative to their magnitude, floored at
+            # chi2/T and chi2/T^2 (chi3 vanishes at mu = 0 by symmetry)
+            s3 = np.maximum(np.abs(chi3), np.abs(P_mumu) / T)
+            s4 = np.maximum(np.abs(chi4), np.abs(P_mumu) / T**2)
             # the error of the integrand s dT + rho dmu of the pressure's path, rho's measured
             # against the larger of the two densities
             e_path = np.maximum(e_s, drho / np.maximum(np.abs(rho), np.abs(s)))
@@ -384,13 +391,36 @@ class BatchSolver:
                 problems[0] += f" (largest in {worst})"
             rows.append(dict(
                 **common, s=float(s[k]), rho=float(sign[k] * rho[k]), epsilon=float(eps[k]), P=float(P[k]),
-                chi2=float(P_mumu[k]), cs2=float(cs2[k]), P_check=float(P_check[k]), trace_anomaly=float(trace[k]),
+                chi2=float(P_mumu[k]), cs2=float(cs2[k]), chi3=float(chi3[k]), chi4=float(chi4[k]),
+                chi3_err=float(chi3_err[k] + (e_vals[k] + DERIV_ROUNDOFF) * s3[k]),
+                chi4_err=float(chi4_err[k] + (e_vals[k] + DERIV_ROUNDOFF) * s4[k]),
+                P_check=float(P_check[k]), trace_anomaly=float(trace[k]),
                 stability="stable" if stable[k] else "unstable",
                 status=Status.NOT_CONVERGED if problems else Status.OK,
                 message="; ".join(problems) or (f"converged on the atlas: |F| = {norms[k]:.2e}; direct shots "
                                                 f"bound the error of every observable by {error[k]:.1e}"),
                 residual=residual, error_estimate=float(error[k]), extra=extra, **counts))
         return rows
+
+    def _cumulants(self, C, T, sign, P_mumu):
+        """``chi3``, ``chi4`` (config units) from the atlas's exact derivatives up to third order
+        (:meth:`.brane_map.BraneMap.rho_derivatives`), and the truncation part of their error
+        bounds: DERIV_SAFETY times the change when the atlas drops its last two orders."""
+        d, L = D_BOUNDARY, self.model.energy_scale
+        D = self.map.rho_derivatives(C[:, 0], C[:, 1])
+        # the change when the atlas drops its last one, two or three orders (the largest): one
+        # truncation alone can change a derivative by a coincidentally small amount at a point
+        with np.errstate(all="ignore"):
+            dD = np.max([np.abs(D - self.map.rho_derivatives(C[:, 0], C[:, 1], truncate=k)) for k in CUMULANT_TRUNCATIONS],
+                        axis=0)
+        # sourced: derivatives in source units; unsourced: of rho_hat(x), rescaled by T
+        unit = (np.full(len(T), L) if self.sourced else T)
+        f3, f4 = unit ** (d - 3), unit ** (d - 4)
+        chi3, chi4 = sign * D[:, 1] * f3, D[:, 2] * f4
+        with np.errstate(all="ignore"):
+            e3 = DERIV_SAFETY * dD[:, 1] * f3
+            e4 = DERIV_SAFETY * dD[:, 2] * f4
+        return chi3, chi4, np.where(np.isnan(e3), np.inf, e3), np.where(np.isnan(e4), np.inf, e4)
 
     def _fd_derivative_bound(self, T, mu, C, vals, L, P_mumu, cs2, s, rho):
         """Bounds on the atlas's chi2 and cs2 (relative, as in the rows) from a second method: central

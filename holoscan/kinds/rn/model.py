@@ -133,7 +133,8 @@ class RNModel(ModelKind):
         return PointResult(
             model_id=self.id, kind=self.kind, d=d, method="closed-form", T=T, mu=mu,
             s=s, rho=rho, epsilon=eps, P=P, chi2=P_mumu, P_check=(T * s + mu * rho) / d,
-            chi3=chi3, chi4=chi4, chi3_err=0.0, chi4_err=0.0, sigma=self.conductivity(T, mu, rh, s, rho), eta_over_s=1 / (4 * math.pi),
+            chi3=chi3, chi4=chi4, chi3_err=0.0, chi4_err=0.0,
+            sigma=self.conductivity(T, mu, rh, s, rho), eta_over_s=1 / (4 * math.pi),
             trace_anomaly=(eps - (d - 1) * P) / T**d, stability=local_stability(P_TT, P_Tmu, P_mumu),
             cs2=cs2_from_hessian(T, mu, s, rho, P_TT, P_Tmu, P_mumu),
             status=Status.OK, message="closed form", rtol=0.0, atol=0.0, residual=0.0, error_estimate=0.0,
