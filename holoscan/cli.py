@@ -197,16 +197,25 @@ def cmd_summary(args) -> int:
 def cmd_export(args) -> int:
     from pathlib import Path
 
-    from .scan.export import export_table, write_export
+    from .scan.export import LAYOUTS, check_scale, export_inverse, export_table, layout_options, write_export
 
     if args.format not in ("csv", "parquet"):
         raise InputError("--format", args.format, "must be csv or parquet")
-    header, rows = export_table(args.results_dir, args.model, args.unit, args.scale)
-    out = Path(args.out) if args.out else Path(args.results_dir) / "export" / f"{args.model}.{args.format}"
+    spec = layout_options(args.layout, args.nodes, args.epsilon_range, args.rho_range)  # before any work
+    check_scale(args.scale)
+    if spec is None:
+        header, rows = export_table(args.results_dir, args.model, args.unit, args.scale)
+        name, what = f"{args.model}.{args.format}", "grid points"
+    else:
+        header, rows = export_inverse(args.results_dir, args.model, spec, args.unit, args.scale)
+        name, what = f"{args.model}-{LAYOUTS[1]}.{args.format}", "(epsilon, rho) nodes"
+    out = Path(args.out) if args.out else Path(args.results_dir) / "export" / name
     out.parent.mkdir(parents=True, exist_ok=True)
     write_export(header, rows, out, args.format)
-    print(f"wrote {out}: {len(rows)} grid points of model {args.model} "
+    print(f"wrote {out}: {len(rows)} {what} of model {args.model} "
           f"({', '.join(f'{k} {v}' for k, v in sorted(header['statuses'].items()))})")
+    if spec is not None and header["accuracy"]:
+        print(f"largest relative error estimate over the ok nodes: {header['accuracy']['all']:.2g}")
     return 0
 
 
@@ -316,7 +325,17 @@ def build_parser() -> argparse.ArgumentParser:
     ex.add_argument("--unit", default=None, help="a physical energy unit, e.g. MeV (with --scale, or a "
                     "family member's matched scale)")
     ex.add_argument("--scale", type=float, default=None, help="the size of the model's energy unit E in --unit")
-    ex.add_argument("--out", default=None, help="output file (default RESULTS_DIR/export/<model>.<format>)")
+    ex.add_argument("--out", default=None, help="output file (default RESULTS_DIR/export/<model>.<format>, "
+                    "<model>-epsilon-rho.<format> for that layout)")
+    ex.add_argument("--layout", default="T-mu", help="T-mu (default): the solved (T, mu) grid; epsilon-rho: a "
+                    "regular grid of energy and charge density, by inversion of the solved grid")
+    ex.add_argument("--nodes", default=None, metavar="N|NE,NR", help="epsilon-rho layout: nodes along epsilon "
+                    "and rho (default 50,50)")
+    ex.add_argument("--epsilon-range", default=None, metavar="MIN,MAX", help="epsilon-rho layout: range of "
+                    "epsilon in the output units (default: the span of the solved ok dominant points)")
+    ex.add_argument("--rho-range", default=None, metavar="MIN,MAX", help="epsilon-rho layout: range of rho "
+                    "in the output units (default: the span of the solved ok dominant points); a negative MIN "
+                    "needs the form --rho-range=MIN,MAX")
     ex.set_defaults(func=cmd_export)
 
     sm = sub.add_parser("summary", help="short text summary of a finished scan")
