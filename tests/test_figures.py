@@ -63,7 +63,7 @@ def _check_png(path):
 def test_every_declared_figure_is_written_and_valid(scan):
     ws, root = scan
     names = figure_files(MODELS)
-    assert len(names) == 2 * (2 + 3 + 1)  # png+pdf of: 2 rn, 3 charged-scalar, 1 convergence
+    assert len(names) == 2 * (4 + 5 + 1)  # png+pdf of: 4 rn, 5 charged-scalar (with kurtosis, transport), 1 convergence
     on_disk = {p.relative_to(root).as_posix() for p in (root / "figures").iterdir()}
     assert on_disk == set(names) | {MANIFEST, "figures/.cache"}  # nothing missing, nothing left over
     # the cache of drawn model figures: per figure its png, pdf and caption record, no .tmp files
@@ -80,6 +80,8 @@ def test_every_declared_figure_is_written_and_valid(scan):
     meta = json.loads(pq.read_schema(root / "points.parquet").metadata[b"holoscan"])
     man = json.loads((root / MANIFEST).read_text())
     assert man["code_hash"] == meta["code_hash"] and man["files"] == names
+    # the closed-form rn rows carry chi4 and sigma: its kurtosis and transport figures are drawn
+    assert not {"figures/rn-kurtosis", "figures/rn-transport"} & set(man["not_drawn"])
     assert (ws / "logs" / "figures" / "figs.log").exists()
 
 

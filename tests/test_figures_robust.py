@@ -190,7 +190,8 @@ def test_figures_of_an_earlier_config_are_removed_and_nothing_else(tmp_path):
     assert on_disk == set(figure_files([("a", "rn")])) | {MANIFEST, "figures/my-notes.png", "figures/.cache"}
     assert outside.exists() and mine.read_bytes() == b"not made by holoscan"
     # the cache of drawn figures keeps model a's entries only
-    assert {f.name.split(".")[0] for f in (root / "figures" / ".cache").iterdir()} == {"a-eos", "a-phase-diagram"}
+    assert {f.name.split(".")[0] for f in (root / "figures" / ".cache").iterdir()} == {
+        "a-eos", "a-phase-diagram", "a-kurtosis", "a-transport"}
     assert sorted(manifest(root)["removed"]) == sorted(n for n in figure_files([("b", "rn")]) if "/b-" in n)
 
 

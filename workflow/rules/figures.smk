@@ -1,7 +1,10 @@
 # Figures of a finished scan (matplotlib, PNG and PDF) under results/<scan>/figures/: per model a phase
-# diagram, the reduced equation of state and (charged-scalar) the condensate; per scan the convergence
-# map; figures/figures.json lists them with the code hash of the tables. The PNGs go into the
-# Snakemake report with a caption per kind of figure (workflow/report/figures/).
+# diagram, the reduced equation of state, (charged-scalar) the condensate, and T^2 chi4/chi2 and the
+# transport coefficients along lines of fixed mu/T (every model has these two files; where its rows
+# carry no chi4 or sigma the file says the figure is not drawn, and figures.json lists it under
+# not_drawn); per scan the convergence map; figures/figures.json lists them with the code hash of the
+# tables. The PNGs go into the Snakemake report with a caption per kind of figure
+# (workflow/report/figures/).
 import hashlib
 from pathlib import Path
 
@@ -10,7 +13,7 @@ import holoscan.scan.figures as _figures_pkg
 from holoscan.scan.figures import MANIFEST, figure_files
 from holoscan.scan.identity import code_hash
 
-FIGURE_KINDS = ("phase-diagram", "eos", "condensate")  # per model; "convergence" is per scan
+FIGURE_KINDS = ("phase-diagram", "eos", "condensate", "kurtosis", "transport")  # per model; "convergence" is per scan
 
 
 def figure_models():

@@ -9,15 +9,22 @@ Files (relative to ``results/<scan>/``), for every model of the scan:
 - ``figures/<model>-eos.{png,pdf}``: reduced equation of state of the dominant branch;
 - ``figures/<model>-condensate.{png,pdf}``: the condensate against T/T_c (kinds that list it in
   their ``figures``, e.g. ``charged-scalar``);
+- ``figures/<model>-kurtosis.{png,pdf}``: ``T^2 chi4/chi2`` against T along lines of fixed mu/T
+  (see :mod:`.cumulants`), and ``figures/<model>-transport.{png,pdf}``: ``sigma/T^(d-3)``,
+  ``D_charge T`` and ``eta/s`` along the same lines (see :mod:`.transport`). Every model has these
+  two files (:data:`DATA_FIGURES`): whether its rows carry ``chi4`` or ``sigma`` is known only once
+  the tables exist, so where they carry none the file says that the figure is not drawn and
+  ``figures.json`` lists it under ``not_drawn``;
 
 for every model family ``figures/family-<id>-landmarks`` and ``figures/family-<id>-lines`` (see
 :mod:`.family`);
 
 and once per scan ``figures/convergence.{png,pdf}`` (error estimate and first-law mismatch) and
 ``figures/figures.json`` (the list of files with the code hash and version of the tables, each
-figure's caption with its grid and units, the figures that are placeholders and why, and the files
-of an earlier config that were removed; see :mod:`.render`). Titles name the model and what is
-drawn; grid sizes and hashes are in the captions. A figure that cannot be drawn is a placeholder
+figure's caption with its grid and units, the figures that are placeholders and why, those that
+do not apply to their model and why, and the files of an earlier config that were removed; see
+:mod:`.render`). Titles name the model and what is drawn; grid sizes and hashes are in the
+captions. A figure that cannot be drawn is a placeholder
 figure, so the command writes every file above and succeeds whatever the tables hold.
 
 This module does not import matplotlib: :func:`figure_files` is called when the workflow is parsed.
@@ -27,6 +34,8 @@ from __future__ import annotations
 
 FORMATS = ("png", "pdf")
 MANIFEST = "figures/figures.json"
+#: per-model figures of every kind, drawn from the columns a model's rows carry (module docstring)
+DATA_FIGURES = ("kurtosis", "transport")
 
 
 def model_figure_stems(model_id: str, kind: str) -> list[str]:
@@ -34,7 +43,7 @@ def model_figure_stems(model_id: str, kind: str) -> list[str]:
     from ...kinds import kind_class
 
     cls = kind_class(kind)
-    names = cls.figures if cls is not None else ("phase-diagram", "eos")
+    names = (*(cls.figures if cls is not None else ("phase-diagram", "eos")), *DATA_FIGURES)
     return [f"figures/{model_id}-{name}" for name in names]
 
 
@@ -67,4 +76,5 @@ def write_figures(results_dir, models: list[tuple[str, str]] | None = None, jobs
     return write_all(results_dir, models, jobs)
 
 
-__all__ = ["FORMATS", "MANIFEST", "family_figure_stems", "figure_files", "model_figure_stems", "write_figures"]
+__all__ = ["DATA_FIGURES", "FORMATS", "MANIFEST", "family_figure_stems", "figure_files", "model_figure_stems",
+           "write_figures"]

@@ -36,7 +36,8 @@ DRAW_MAX = 1e250
 NUMERIC = ("T", "mu", "s", "rho", "epsilon", "P", "Omega", "chi2", "cs2", "P_check", "P_mismatch",
            "trace_anomaly", "s_hat", "rho_hat", "P_hat", "chi2_hat", "error_estimate", "residual", "accept_error",
            "mu_over_T", "T_err", "mu_err", "latent_heat", "rho_jump", "s_high", "s_low", "omega_gap",
-           "branch", "d", "dominant_branch", "wall_time")
+           "branch", "d", "dominant_branch", "wall_time", "chi3", "chi4", "chi3_err", "chi4_err", "kurtosis_ratio",
+           "sigma", "eta_over_s", "D_charge")
 
 
 @dataclass

@@ -8,8 +8,11 @@ writes every declared file and succeeds; only a missing or unreadable points tab
 The manifest (JSON, sorted keys): ``scan``, ``code_hash``, ``package_version``, ``config_hash`` of
 the tables; ``files``, every file written (relative to ``results/<scan>/``); ``captions``, per
 figure stem the caption (model, grid, units, where the tables come from, and what the figure
-leaves out); ``placeholders``, per stem that is a placeholder the reason; ``removed``, files of
-an earlier manifest that this one no longer lists and that were deleted.
+leaves out); ``placeholders``, per stem that is a placeholder the reason; ``not_drawn``, per stem
+of a figure that does not apply to its model (the kurtosis figure of a model whose rows carry no
+``chi4``, the transport figure of one whose rows carry no ``sigma``) the reason: its files are
+written all the same, saying so, because the workflow declares them before any table exists;
+``removed``, files of an earlier manifest that this one no longer lists and that were deleted.
 
 Files left from an earlier config: the figures of models no longer in the scan are removed when
 the previous manifest in the same folder lists them and they are not written now. Nothing else in
@@ -44,14 +47,17 @@ _TABLES: ScanTables | None = None  # the scan being drawn, shared with forked wo
 
 #: heading of each kind of figure, for placeholders
 HEADINGS = {"phase-diagram": "phase diagram", "eos": "equation of state", "condensate": "condensate",
+            "kurtosis": "kurtosis ratio", "transport": "transport",
             "convergence": "convergence map", "family-landmarks": "landmarks", "family-lines": "lines"}
 
 
 def _plot(what: str, mid, kind, models):
     from .condensate import plot_condensate
     from .convergence import plot_convergence
+    from .cumulants import plot_kurtosis
     from .eos import plot_eos
     from .phase_diagram import plot_phase_diagram
+    from .transport import plot_transport
 
     if what == "convergence":
         return plot_convergence(_TABLES, models)
@@ -59,13 +65,15 @@ def _plot(what: str, mid, kind, models):
         from .family import plot_family_landmarks, plot_family_lines
 
         return (plot_family_landmarks if what == "family-landmarks" else plot_family_lines)(_TABLES, mid)
-    plot = {"phase-diagram": plot_phase_diagram, "eos": plot_eos, "condensate": plot_condensate}[what]
+    plot = {"phase-diagram": plot_phase_diagram, "eos": plot_eos, "condensate": plot_condensate,
+            "kurtosis": plot_kurtosis, "transport": plot_transport}[what]
     return plot(_TABLES, mid, kind)
 
 
 def _draw(task) -> dict:
     """Draw and save one figure: ``task = (what, stem, model_id, kind, models)``. Returns
-    ``{"stem", "files", "caption", "placeholder"}`` (``placeholder``: the reason, or None)."""
+    ``{"stem", "files", "caption", "placeholder", "not_drawn"}`` (``placeholder``: the reason, or None;
+    ``not_drawn``: why the figure does not apply to its model, or None)."""
     import matplotlib.pyplot as plt
 
     from .style import placeholder, save
@@ -75,13 +83,15 @@ def _draw(task) -> dict:
     try:
         drawn = _plot(what, mid, kind, models)
         caption = getattr(drawn, "caption", "")
+        absent = getattr(drawn, "not_drawn", None)
         paths = save(drawn.fig, _TABLES.root / stem)
-        return {"stem": stem, "files": [str(p) for p in paths], "caption": caption, "placeholder": None}
+        return {"stem": stem, "files": [str(p) for p in paths], "caption": caption, "placeholder": None,
+                "not_drawn": absent}
     except Exception as exc:  # noqa: BLE001 - a figure never fails the command: it becomes a placeholder
         plt.close("all")
         reason = f"{type(exc).__name__}: {exc}"
         paths = save(placeholder(heading, reason), _TABLES.root / stem)
-        return {"stem": stem, "files": [str(p) for p in paths], "placeholder": reason,
+        return {"stem": stem, "files": [str(p) for p in paths], "placeholder": reason, "not_drawn": None,
                 "caption": f"Placeholder: the {heading} could not be drawn from the tables ({reason})."}
 
 
@@ -126,7 +136,7 @@ def _from_cache(task, key: str) -> dict | None:
     except (OSError, ValueError):
         return None
     return {"stem": stem, "files": files, "caption": record.get("caption", ""),
-            "placeholder": record.get("placeholder"), "cached": True}
+            "placeholder": record.get("placeholder"), "not_drawn": record.get("not_drawn"), "cached": True}
 
 
 def _to_cache(done: dict, key: str) -> None:
@@ -142,7 +152,7 @@ def _to_cache(done: dict, key: str) -> None:
             ext = Path(f).suffix
             with atomic_path(folder / f"{name}.{key}{ext}", durable=False) as tmp:
                 shutil.copyfile(f, tmp)
-        record = {"caption": done["caption"], "placeholder": done["placeholder"]}
+        record = {"caption": done["caption"], "placeholder": done["placeholder"], "not_drawn": done.get("not_drawn")}
         atomic_write_text(folder / f"{name}.{key}.json", json.dumps(record, sort_keys=True), durable=False)
     except OSError:
         pass  # the cache only saves time
@@ -228,6 +238,7 @@ def write_all(results_dir, models=None, jobs: int = 1) -> list[str]:
                 "config_hash": _TABLES.meta.get("config_hash"), "files": names,
                 "captions": {d["stem"]: d["caption"] for d in done},
                 "placeholders": {d["stem"]: d["placeholder"] for d in done if d["placeholder"]},
+                "not_drawn": {d["stem"]: d["not_drawn"] for d in done if d.get("not_drawn")},
                 "removed": removed}
     path = root / MANIFEST
     atomic_write_text(path, json.dumps(manifest, indent=2, sort_keys=True) + "\n", durable=False)

@@ -141,3 +141,19 @@ def plain_log_ticks(axis, lo: float, hi: float) -> None:
     axis.set_major_locator(LogLocator(base=10, subs=(1.0, 2.0, 5.0)))
     axis.set_major_formatter(FuncFormatter(lambda v, _: f"{v:g}"))
     axis.set_minor_formatter(NullFormatter())
+
+
+def not_drawn_figure(heading: str, reason: str):
+    """A small figure under ``heading`` that says the figure does not apply to its model and why
+    (a model whose rows lack the columns it shows); returns ``(fig, ax)``."""
+    import textwrap
+
+    fig = new_figure((8.0, 3.6), left=0.3, right=0.3, bottom=0.3, top=0.75)
+    ax = fig.add_subplot()
+    ax.set_xticks([])
+    ax.set_yticks([])
+    ax.set_facecolor("#EBEBEB")
+    title(fig, heading)
+    ax.text(0.5, 0.5, "not drawn:\n" + "\n".join(textwrap.wrap(reason, 70)), ha="center", va="center",
+            transform=ax.transAxes, color=OKABE_ITO["vermillion"], parse_math=False)
+    return fig, ax
