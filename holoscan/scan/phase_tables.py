@@ -148,7 +148,7 @@ def build_phase_tables(points_file, line_files, critical_files, out_phases, out_
     if out_families:
         atomic_write_table(families_table(models or {}, lines, crit, meta), out_families)
     if out_isentropes:
-        atomic_write_table(isentropes_table(points, models or {}, meta), out_isentropes)
+        atomic_write_table(isentropes_table(points, models or {}, meta, lines), out_isentropes)
     summary = {}
     for m in order:
         summary[m] = {

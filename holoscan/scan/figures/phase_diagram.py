@@ -9,7 +9,8 @@ branch are left white. The dominant phase's name is shown by the marker of each 
 (up to 600 points).
 
 Isentropes (``isentropes.parquet``, rows ``ok`` or ``coexistence``), when the model has any: fine
-dark dotted lines, their ``s/rho`` values in the legend.
+dark dotted lines, their ``s/rho`` values in the legend; where a path follows a first-order line
+(coexistence rows with a phase fraction), that segment is drawn as a broad sky-blue band under the line.
 
 Lines on top (``transitions.parquet``): first-order solid, second-order dashed, crossover dotted,
 instability loci (spinodals, folds of a conformal family) thin; line points are joined in order of
@@ -60,7 +61,8 @@ class PhaseDiagram:
     """The drawn figure and what is on it (for checks): line artists by transition type, the
     phase raster (phase index per pixel, -1 outside) with its pixel edges and phase names, the
     shaded raster ``values`` (``s_hat`` of the dominant branch per pixel, NaN where none) with its
-    norm, the (mu, T) of the marked failed / unconverged grid points, and the caption."""
+    norm, the (mu, T) of the marked failed / unconverged grid points, the isentropes' (mu, T) points
+    (``isentropes``; ``isentrope_mixed``: those on a first-order line) by value, and the caption."""
 
     fig: object
     ax: object
@@ -74,6 +76,7 @@ class PhaseDiagram:
     marked: dict = field(default_factory=dict)
     critical: list = field(default_factory=list)
     isentropes: dict = field(default_factory=dict)
+    isentrope_mixed: dict = field(default_factory=dict)
     caption: str = ""
 
 
@@ -289,9 +292,18 @@ def plot_phase_diagram(tables: ScanTables, model_id: str, kind: str) -> PhaseDia
             g = g.sort_values("T")
             ax.plot(g["mu"], g["T"], color="0.15", ls=(0, (1, 1.5)), lw=1.1, zorder=6)
             out.isentropes[float(v)] = list(zip(g["mu"].astype(float), g["T"].astype(float)))
+            if "fraction_high_entropy" in g:   # the segment on a first-order line: a mixture of the two phases
+                on = g[(g["status"] == "coexistence") & g["fraction_high_entropy"].notna()]
+                if len(on):
+                    ax.plot(on["mu"], on["T"], color=OKABE_ITO["sky"], ls="-", lw=7.0, alpha=0.8, zorder=3.5,
+                            solid_capstyle="round")
+                    out.isentrope_mixed[float(v)] = list(zip(on["mu"].astype(float), on["T"].astype(float)))
         if out.isentropes:
             handles.append(Line2D([], [], color="0.15", ls=(0, (1, 1.5)), lw=1.1,
                                   label="isentropes s/rho = " + ", ".join(f"{v:g}" for v in out.isentropes)))
+        if out.isentrope_mixed:
+            handles.append(Line2D([], [], color=OKABE_ITO["sky"], ls="-", lw=7.0, alpha=0.8,
+                                  label="isentrope on the first-order line\n(mixture of the coexisting phases)"))
 
     for key, statuses in (("failed", FAILED_STATUSES), ("unconverged", UNCONVERGED_STATUSES)):
         marker, face, edge, text = BAD_MARKERS[key]
