@@ -370,3 +370,24 @@ def test_demo_rows_on_and_near_the_line_against_direct_solves(demo_scan):
                       key=lambda r: r["T"])[:1]
     r0, r1 = ratio(above["T"], above["mu"], True), ratio(above["T"], above["mu"] + h, True)
     assert abs(r0 - v) <= abs(r1 - r0) / h * above["mu_err"]
+
+
+def test_a_change_of_phase_label_without_a_first_order_line_is_crossed_not_coexistence():
+    # Scenario: the RN-AdS5 closed form on a mu grid, the points above mu/T = 2 labelled as another
+    # phase with the same densities, as at a continuous (second-order) transition, where s and rho
+    # are continuous (common practice, no source). No first-order line is recorded, so the path
+    # crosses: the row is ok and the closed form's own crossing (brentq) lies within mu_err.
+    from holoscan.scan.isentropes import locate
+    T = 0.5
+    rows = []
+    for k in range(21):
+        mu = 0.1 * k
+        (r,) = solve_point(RNModel("q", 4, kappa_sq=0.5, e_sq=2.0), T, mu, CLOSED)
+        rows.append({"T": T, "mu": mu, "s": r.s, "rho": r.rho, "status": "ok",
+                     "phase": "normal" if mu / T <= 2.0 else "condensed"})
+    lo, hi = rows[10], rows[11]                 # the bracket where the label changes
+    v = 0.5 * (lo["s"] / lo["rho"] + hi["s"] / hi["rho"])
+    (row,) = locate("q", rows, [v])
+    assert row["status"] == "ok" and "label changes" in row["message"]
+    exact = brentq(lambda m: s_over_rho(T, m) - v, lo["mu"], hi["mu"], xtol=1e-14)
+    assert abs(row["mu"] - exact) <= row["mu_err"] <= hi["mu"] - lo["mu"]

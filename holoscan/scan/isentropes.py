@@ -74,8 +74,11 @@ Other rows: ``not ok`` where a grid point between the two ``ok`` points that bra
 not ``ok`` (its status in ``message``; ``mu`` null). A ``coexistence`` row at the bracket's midpoint,
 ``mu_err`` its half width and no fraction, where the line crosses a bracket but the coexisting phases'
 densities are not resolved there (fewer than three nodes of either phase in the grid column, or a
-located point with ``mu = 0``), and, for a model without a recorded first-order line, wherever the
-dominant phase's label changes inside a bracket (the older rule).
+located point with ``mu = 0``). A model without a recorded first-order line has no coexistence: where
+the dominant phase's label changes inside a bracket (a second-order line such as a superconductor's
+onset, where s and rho are continuous, or a change of branch name), the row is ``ok``, located by
+linear inverse interpolation through the bracket with ``mu_err`` the distance to its farther end
+(``s/rho`` is continuous there, so the value lies inside the bracket).
 """
 from __future__ import annotations
 
@@ -445,10 +448,16 @@ def _grid_rows(base: dict, T: float, pts: list, vals: dict, j: int, k: int, side
             m, err, how = _locate(inner, 0, target)
         return [{**row, "mu": m, "mu_err": err, "mu_over_T": m / T, "status": "ok", "message": how}]
     if line is None:
-        m = 0.5 * (a["mu"] + b["mu"])
-        return [{**row, "mu": m, "mu_err": 0.5 * (b["mu"] - a["mu"]), "mu_over_T": m / T, "status": "coexistence",
-                 "message": f"the dominant phase changes from {a['phase']} to {b['phase']} inside the bracket: "
-                            "the path follows the coexistence region"}]
+        # no first-order line is recorded: the label changes at a continuous transition (a
+        # second-order line, where s and rho are continuous and only their derivatives jump) or
+        # between branch names; s/rho is continuous through the bracket, so the value is taken
+        # there, linearly, and the bracket bounds it (intermediate values)
+        m, _, _ = _locate([(a["mu"], vals[j], 0.0, 0.0), (b["mu"], vals[k], 0.0, 0.0)], 0, target)
+        err = max(m - a["mu"], b["mu"] - m)
+        return [{**row, "mu": m, "mu_err": err, "mu_over_T": m / T, "status": "ok",
+                 "message": f"the dominant phase's label changes from {a['phase']} to {b['phase']} inside the "
+                            "bracket and no first-order line is recorded (s/rho continuous): linear inverse "
+                            "interpolation, bounded by the bracket"}]
     # the first-order line crosses the bracket
     hit = line.at_T(T, a["mu"], b["mu"])
     p = line.props(hit[2], hit[0], hit[1]) if hit else None
