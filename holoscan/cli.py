@@ -303,8 +303,8 @@ def build_parser() -> argparse.ArgumentParser:
     pt2.add_argument("--summary-text", default=None)
     pt2.set_defaults(func=cmd_phase_tables)
 
-    fg = sub.add_parser("figures", help="phase diagrams, equation of state, condensate and convergence "
-                        "figures (PNG, PDF) of a finished scan, under RESULTS_DIR/figures")
+    fg = sub.add_parser("figures", help="phase diagrams, equation of state, condensate, kurtosis, transport, "
+                        "family and convergence figures (PNG, PDF) of a finished scan, under RESULTS_DIR/figures")
     fg.add_argument("results_dir", metavar="RESULTS_DIR", help="results/<scan> of a finished scan")
     fg.add_argument("--jobs", type=int, default=1, help="worker processes drawing the figures (default 1)")
     fg.set_defaults(func=cmd_figures)
