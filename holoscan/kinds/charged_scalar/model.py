@@ -72,6 +72,40 @@ between the horizon and r = 2, 40 (there is no independent constraint in the pro
 ``nfev``/``nsteps`` count the point's own shots, not the onset and family work cached once per
 model, tolerance and process (:data:`_CACHE`). ``extra`` holds each component's largest size
 (``error_rtol``, ...), ``error_by_observable`` and ``deriv_error`` (the larger of chi2's and cs2's).
+Higher cumulants and transport (``chi3 = d^2 rho/dmu^2``, ``chi4 = d^3 rho/dmu^3`` at fixed T, in
+E^(d-3), E^(d-4); ``chi3_err``, ``chi4_err`` absolute bounds, not part of ``error_estimate``):
+
+* normal branch, backreacted: the ``rn`` closed form's chi3, chi4 (exact; bounds 0), its
+  conductivity ``sigma = r_h^(d-3)/e^2 (s T/(epsilon + P))^2`` (Hartnoll 2009, Class. Quant.
+  Grav. 26, 224002) and ``eta_over_s = 1/(4 pi)``;
+* normal branch, probe: rho is linear in mu, so chi3 = chi4 = 0 exactly. ``sigma`` is the probe
+  gauge field's own horizon value ``r_h^(d-3)`` (``e^2 = 1``, ``r_h = 4 pi T/d``; 1 in AdS4, the
+  normal phase of Hartnoll, Herzog & Horowitz 2008): the factor ``(s T/(epsilon + P))^2`` is one in
+  the probe limit, where the neutral brane's O(1/kappa^2) enthalpy carries the momentum the charge
+  current would drag;
+* condensed branch: chi3, chi4 from derivatives along the family
+  (:func:`holoscan.kinds.charged_scalar.solver.family_cumulants`: a stencil of 65 shots, the member
+  and 8 along each of eight directions of the scaled horizon data, appended to each batched call of
+  the chi2 derivatives, the variants' too, so it costs no further integration call; about +7% of a
+  condensed row's time). ``chi_n_err = SAFETY * (sum of its components) + ROUNDING * (size of the
+  chain rule's terms)``, the components varying every choice that enters: the Richardson order and
+  steps (``fd``), the tolerance (``rtol``, 10x looser, divided by 9), the horizon offset
+  (``offset``, as for the densities), where the boundary is read (``readout``) and the move from
+  the member's mu/T to the target's (``root``). ``error_by_observable`` adds their sizes relative to
+  ``max(|chi_n|, CUMULANT_FLOOR chi2/max(|mu|, T)^(n-2))``. Measured against ``d chi2/dmu`` and
+  ``d chi3/dmu`` from targeted solves at ``mu +- delta``, ``mu +- 2 delta`` (``delta = 2e-3 mu``,
+  one Richardson step; 2026-12-05, four models: sc-demo, the probe with Delta = 1 and 2 in AdS4 and a
+  backreacted AdS5 model, T/T_c = 0.97, 0.9, 0.8, 0.65, 0.5, 0.3): worst |difference| over the sum of
+  both routes' bounds 0.15 (chi3) and 0.49 (chi4); the bounds were 1.5e-9 to 1e-6 (chi3) and 1.5e-6 to
+  2e-2 (chi4) relative, the largest next to T_c and deep in the condensed phase, where chi4 is small.
+  ``sigma`` is null: the DC conductivity of the superfluid is infinite (a delta function at zero
+  frequency; Hartnoll, Herzog & Horowitz 2008, Phys. Rev. Lett. 101, 031601), and the normal phase's
+  finite-density formula does not apply;
+* ``eta_over_s = 1/(4 pi)`` on both branches (Kovtun, Son & Starinets 2005, Phys. Rev. Lett. 94,
+  111601: any two-derivative Einstein brane; the isotropic condensate does not change it), set on
+  ``ok`` rows. With ``probe: true`` it is the ratio of the whole fluid, whose eta and s are the
+  neutral brane's at leading order: the table's s of a probe row is the charge sector's share, so
+  there eta is not ``eta_over_s * s``.
 """
 from __future__ import annotations
 
@@ -92,7 +126,16 @@ from ..base import ModelKind
 from ..rn.model import RNModel
 from .brane import HairyBrane
 from .lines import onset_line
-from .solver import Family, SolveError, Work, family_gradients, find_onset, solve_member
+from .solver import (
+    Family,
+    SolveError,
+    Work,
+    cumulant_psi_scale,
+    family_cumulants,
+    family_gradients,
+    find_onset,
+    solve_member,
+)
 
 ONSET_METHOD = "zero mode, shooting"
 
@@ -213,12 +256,13 @@ class ChargedScalarModel(ModelKind):
 
     # -- normal branch ------------------------------------------------------------------------------
     def _normal(self, T: float, mu: float) -> dict:
-        """Closed form of the normal brane: (s, rho, P, P_TT, P_Tmu, P_mumu)."""
+        """Closed form of the normal brane: (s, rho, P, P_TT, P_Tmu, P_mumu, chi3, chi4, sigma)."""
         if not self.probe:
             rn = self.normal_model()
             r = rn.closed_form(T, mu)
             P_TT, P_Tmu, P_mumu = rn.pressure_hessian(T, mu, r.extra["r_h"])
-            return dict(s=r.s, rho=r.rho, P=r.P, P_TT=P_TT, P_Tmu=P_Tmu, P_mumu=P_mumu)
+            return dict(s=r.s, rho=r.rho, P=r.P, P_TT=P_TT, P_Tmu=P_Tmu, P_mumu=P_mumu,
+                        chi3=r.chi3, chi4=r.chi4, sigma=r.sigma)
         # probe: A_t = mu (1 - (r_h/r)^(d-2)) on Schwarzschild-AdS, r_h = 4 pi T / d
         d = self.d
         c = 4 * math.pi / d
@@ -230,6 +274,9 @@ class ChargedScalarModel(ModelKind):
             P_TT=0.5 * (d - 2) ** 2 * (d - 3) * mu * mu * rh ** (d - 4) * c * c,
             P_Tmu=(d - 2) ** 2 * mu * rh ** (d - 3) * c,
             P_mumu=(d - 2) * rh ** (d - 2),
+            # rho is linear in mu; the probe's conductivity is the horizon value r_h^(d-3)/e^2 (e^2 = 1):
+            # the neutral brane's O(1/kappa^2) enthalpy makes the factor (s T/(epsilon + P))^2 one
+            chi3=0.0, chi4=0.0, sigma=rh ** (d - 3),
         )
 
     def _normal_rho(self, T: float, mu: float) -> float:
@@ -261,6 +308,7 @@ class ChargedScalarModel(ModelKind):
         return PointResult(
             model_id=self.id, kind=self.kind, d=d, method="closed-form", T=T, mu=mu, s=n["s"], rho=n["rho"],
             epsilon=(d - 1) * P, P=P, chi2=n["P_mumu"],
+            chi3=n["chi3"], chi4=n["chi4"], chi3_err=0.0, chi4_err=0.0, sigma=n["sigma"], eta_over_s=ETA_OVER_S,
             cs2=self._cs2(T, mu, n["s"], n["rho"], n["P_TT"], n["P_Tmu"], n["P_mumu"]),
             P_check=(T * n["s"] + mu * n["rho"]) / d, trace_anomaly=0.0, branch=0,
             stability=self._stability(n["P_TT"], n["P_Tmu"], n["P_mumu"]),
@@ -363,10 +411,12 @@ class ChargedScalarModel(ModelKind):
             mt = solve_member(brane, x, seed, tight.rtol, off, var_work)
             mo = solve_member(brane, x, seed, tight.rtol, off_var, var_work)
             mr = solve_member(far, x, seed, tight.rtol, off, var_work)
-            deriv, d_err = family_gradients(
+            H = CUM_SCALE * settings.fd_step
+            psi_scale = cumulant_psi_scale(m.s, fam.log_E_slope(m.s))
+            deriv, d_err, stencils = family_gradients(
                 brane, m, FD_SCALE * settings.fd_step, rt_d, off, work,
                 variants=(("rtol", brane, 10.0 * rt_d, off, 1.0 / 9.0), ("offset", brane, rt_d, off_var, off_w),
-                          ("readout", far, rt_d, off, 1.0)))
+                          ("readout", far, rt_d, off, 1.0)), cumulant_step=(H, psi_scale))
             P_fam, P_fam_err = fam.pressure(m.s)
         except (ArithmeticError, ValueError, np.linalg.LinAlgError) as exc:  # SolveError is an ArithmeticError
             return PointResult(**common, status=Status.FAILED, message=str(exc), nfev=work.nfev, nsteps=work.nsteps,
@@ -424,12 +474,30 @@ class ChargedScalarModel(ModelKind):
             problems.append(f"target mismatch {target:.3g} > accept_error / 100")
         if problems and error > settings.accept_error:
             problems[0] += f" (largest in {max(per_obs, key=per_obs.get)})"
+        # chi3, chi4 with their absolute bounds (kept out of error_estimate)
+        by_obs = dict(per_obs)
+        cum = {"chi3": math.nan, "chi4": math.nan, "chi3_err": math.nan, "chi4_err": math.nan}
+        cum_note = {}
+        try:
+            fc = family_cumulants(stencils, H, x)
+        except (ArithmeticError, ValueError, np.linalg.LinAlgError) as exc:
+            cum_note = {"cumulant_failure": f"chi3, chi4 not computed: {exc}"}
+        else:
+            R2, R3 = fc["R"][1], fc["R"][2]
+            e2, e3 = SAFETY * sum(fc["components"].values()) + ROUNDING * fc["scale"]
+            floor = CUMULANT_FLOOR * abs(P_mumu) / max(x, 1.0)
+            by_obs["chi3"] = float(e2 / max(abs(R2), floor))
+            by_obs["chi4"] = float(e3 / max(abs(R3), floor / max(x, 1.0)))
+            cum = {"chi3": sign * R2 * T ** (d - 3), "chi4": R3 * T ** (d - 4),
+                   "chi3_err": float(e2) * T ** (d - 3), "chi4_err": float(e3) * T ** (d - 4)}
         f2 = T ** (d - 2)
         P_TT, P_Tmu, P_mumu = P_TT * f2, sign * P_Tmu * f2, P_mumu * f2
         s, rho, P = vals["s_hat"] * T ** (d - 1), sign * vals["rho_hat"] * T ** (d - 1), vals["p_hat"] * T**d
         P_check = P_fam * T**d
+        ok = not problems
         return PointResult(
-            **common, s=s, rho=rho, epsilon=(d - 1) * P, P=P, chi2=P_mumu,
+            **common, s=s, rho=rho, epsilon=(d - 1) * P, P=P, chi2=P_mumu, **cum,
+            eta_over_s=ETA_OVER_S if ok else math.nan,
             cs2=cs2, P_check=P_check, trace_anomaly=0.0,
             stability=self._stability(P_TT, P_Tmu, P_mumu),
             status=Status.NOT_CONVERGED if problems else Status.OK,
@@ -442,7 +510,7 @@ class ChargedScalarModel(ModelKind):
                    "deriv_error": max(per_obs["chi2"], per_obs["cs2"]), "maxwell_mismatch": maxwell,
                    "target_mismatch": target, "shots": work.shots + var_work.shots,
                    **{f"error_{c}": SAFETY * max(v.values()) for c, v in comps.items()},
-                   "error_by_observable": per_obs, "condensate_error": condensate_error},
+                   "error_by_observable": by_obs, "condensate_error": condensate_error, **cum_note},
         )
 
 
@@ -457,6 +525,15 @@ DERIV_TIGHTER = 1e4
 #: the family derivatives step fd_step * FD_SCALE relative to psi0 and E (the O(h^4) remainder
 #: of the extrapolation dominates at fd_step = 1e-3; the noise at rtol/1e4 stays below 1e-10)
 FD_SCALE = 0.25
+#: the stencil of chi3, chi4 steps CUM_SCALE * fd_step in the scaled horizon data (:func:`.solver.cumulant_stencil`),
+#: up to 8 times that. Of 0.5, 1 and 2 (four models, T/T_c = 0.97, 0.7, 0.3) the middle: half the step
+#: gave a larger Richardson spread of chi4 at 10 of the 12 points (noise), twice the step at 9 (truncation)
+CUM_SCALE = 1.0
+#: chi3, chi4 are measured in error_by_observable against max(|chi_n|, CUMULANT_FLOOR chi2 / m^(n-2)),
+#: m = max(|mu|, T): chi3 vanishes at mu = 0, chi4 changes sign
+CUMULANT_FLOOR = 1e-3
+#: eta/s of every two-derivative Einstein brane (Kovtun, Son & Starinets 2005, Phys. Rev. Lett. 94, 111601)
+ETA_OVER_S = 1.0 / (4.0 * math.pi)
 #: safety factor on the summed components (common practice, no source)
 SAFETY = 2.0
 #: relative rounding floor

@@ -21,13 +21,21 @@ of Hartnoll 2009, Class. Quant. Grav. 26, 224002)::
     epsilon = (d-1) M / (2 kappa^2),  P = M / (2 kappa^2),  M = r_h^d + mu^2 r_h^(d-2) / gamma^2
 
 Methods: ``closed-form`` (the default under ``auto``: exact to rounding and microseconds per point)
-and ``shooting`` (the numerical engine, an independent check; see :mod:`holoscan.bulk.conformal`).
+and ``shooting`` (the numerical engine, an independent check; see :mod:`holoscan.bulk.conformal`,
+which also gives ``chi3``, ``chi4`` with their bounds ``chi3_err``, ``chi4_err`` from derivatives
+along the brane family).
+
+Transport (both methods): ``sigma`` is the horizon value ``r_h^(d-3)/e^2`` times
+``(s T/(epsilon + P))^2`` (Hartnoll 2009, as above), ``eta_over_s = 1/(4 pi)``; a shooting row
+takes ``r_h`` from its own entropy density (``s = 2 pi r_h^(d-1)/kappa^2``), so its ``sigma``
+carries the row's own error (relative, at most about ``(4 + (d-3)/(d-1))`` times
+``error_estimate``, from the first-order propagation of the errors of s and rho).
 """
 from __future__ import annotations
 
 import math
 import time
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 from ... import validate as v
 from ...bulk.charged_brane import ChargedBrane, Constant
@@ -147,4 +155,15 @@ class RNModel(ModelKind):
         method = self.default_method if settings.method == "auto" else settings.method
         if method == "closed-form":
             return [self.closed_form(T, mu)]
-        return [solve_unsourced(self.brane(), self.kappa_sq, T, mu, settings, model_id=self.id, kind=self.kind)]
+        r = solve_unsourced(self.brane(), self.kappa_sq, T, mu, settings, model_id=self.id, kind=self.kind)
+        return [self.with_transport(r)]
+
+    def with_transport(self, r: PointResult) -> PointResult:
+        """A shooting row with ``sigma`` (:meth:`conductivity`, with the row's own horizon radius
+        from its entropy density, ``s = 2 pi r_h^(d-1)/kappa^2``, and its own ``s``, ``rho``) and
+        ``eta_over_s = 1/(4 pi)`` (Kovtun, Son & Starinets 2005, Phys. Rev. Lett. 94, 111601); a row
+        that is not ``ok`` is returned unchanged (NaN transport), as on the ``emd`` paths."""
+        if r.status is not Status.OK:
+            return r
+        rh = (r.s * self.kappa_sq / (2 * math.pi)) ** (1.0 / (self.d - 1))
+        return replace(r, sigma=self.conductivity(r.T, r.mu, rh, r.s, r.rho), eta_over_s=1 / (4 * math.pi))
