@@ -33,10 +33,15 @@ def reference_model():
     return demo()
 
 
+#: the reference's coarse map of horizon data, narrowed to where these targets' branches lie (horizon
+#: scalar 1.2 to 3.9): its seeds, not its solutions, depend on it; every branch must still be found
+SCAN = dict(phi_range=(0.5, 8.0), n_phi=20, n_u=10)
+
+
 @pytest.mark.parametrize("target", TARGETS)
 def test_near_misses_are_vouched_for_by_a_second_method(rows, reference_model, target):
     got = rows[target]
-    refs = solve(reference_model, *target)
+    refs = solve(reference_model, *target, scan_kw=SCAN)
     assert len(got) == len(refs)
     assert any(r.extra.get("fd_derivative_check") for r in got)
     for row in got:
@@ -58,9 +63,10 @@ def test_higher_cumulants_against_differences_of_the_reference(rows, reference_m
     # scenario: the dominant branch next to the first-order line, where chi4/chi2 is large
     # chi3 = d^2 rho/d mu^2 and chi4 = d^3 rho/d mu^3 of the dominant row (exact derivatives of the
     # atlas) against central differences of rho from the reference solver's own roots at
-    # mu + k delta, k = 0, +-1, +-2, +-4, +-8 (its gauge, shots and Newton iteration; only the starting
+    # mu + k delta, k = 0, +-1, +-2, +-4 (its gauge, shots and Newton iteration; only the starting
     # guess comes from the row). Richardson-extrapolated; the differences' error is the change
-    # of the extrapolant made with steps (2 delta, 4 delta) instead of (delta, 2 delta), plus the
+    # of the extrapolant made with steps (2 delta, 4 delta) instead of (delta, 2 delta) for chi3,
+    # and the whole Richardson correction of chi4 (its unextrapolated error bounds it), plus the
     # reference's noise in rho (1e-12 relative: its shots at rtol 2.5e-14) over delta^2 and delta^3
     # (central differences and Richardson: common practice, no source).
     T, mu = target
@@ -69,7 +75,7 @@ def test_higher_cumulants_against_differences_of_the_reference(rows, reference_m
     delta = 0.001
     seed = (row.extra["horizon_phi0"], abs(row.extra["horizon_u"]))
     rho = {}
-    for k in (0, 1, -1, 2, -2, 4, -4, 8, -8):
+    for k in (0, 1, -1, 2, -2, 4, -4):
         rho[k], _ = _reference_rho(reference_model, T, mu + k * delta, seed)
     noise = 1e-12 * abs(rho[0])
 
@@ -82,7 +88,7 @@ def test_higher_cumulants_against_differences_of_the_reference(rows, reference_m
     c3 = (4 * d2(1) - d2(2)) / 3
     c3b = (4 * d2(2) - d2(4)) / 3
     c4 = (4 * d3(1) - d3(2)) / 3
-    c4b = (4 * d3(2) - d3(4)) / 3
+    c4b = d3(1)
     e3 = abs(c3 - c3b) + 8 * noise / delta**2
     e4 = abs(c4 - c4b) + 8 * noise / delta**3
     assert abs(row.chi3 - c3) <= row.chi3_err + e3, (row.chi3, c3, row.chi3_err, e3)
