@@ -106,7 +106,9 @@ def demo():
     return model_from_block(DEMO)
 
 
-@pytest.mark.parametrize("T,mu", [(0.2, 0.5), (0.17, 1.0), (0.25, 0.0)])
+# a point with three branches at nonzero mu (each compared) and the neutral point; a single-branch
+# point at nonzero mu adds nothing the three branches do not already check
+@pytest.mark.parametrize("T,mu", [(0.17, 1.0), (0.25, 0.0)])
 def test_demo_matches_the_point_by_point_solver(demo, T, mu):
     atlas = solve_point(demo, T, mu)
     direct = solve_point(demo, T, mu, SolverSettings(method="shooting"))
