@@ -139,8 +139,8 @@ def _lines(cfg, tmp_path):
 
 
 def test_emd_family_landmarks_equal_separate_models_and_match_a_scale(tmp_path):
-    # three members of an invented dilaton family (g varied) and the same three models written out by
-    # hand: the lines of each are located by the same finders, so a member's landmarks in
+    # three members of an invented dilaton family (g varied) and the middle one written out by hand:
+    # the lines of each are located by the same finders, so that member's landmarks in
     # families.parquet must be exactly those of its twin; with match:, every member's crossover at
     # mu = 0 is put at 150 MeV (the matched landmark equals the target to its uncertainty, by
     # construction of the scale) and its other landmarks carry the same scale (common practice, no source)
@@ -149,7 +149,7 @@ def test_emd_family_landmarks_equal_separate_models_and_match_a_scale(tmp_path):
               "f": "sech(1.1*phi)", "vary": {"g": [0.58, 0.6, 0.62]},
               "match": {"landmark": "crossover_T_mu0", "value": 150.0, "unit": "MeV"}}
     twins = [{"id": f"twin{g}", "kind": "emd", "kappa_sq": 1.0, "V": v.format(g=g), "f": "sech(1.1*phi)"}
-             for g in (0.58, 0.6, 0.62)]
+             for g in (0.6,)]
     cfg = {"scan": "lm", "models": [family, *twins],
            "grid": {"T": [0.17, 0.27], "mu": [0.0, 0.8]}}
     models, lines, crit = _lines(cfg, tmp_path)
@@ -157,17 +157,19 @@ def test_emd_family_landmarks_equal_separate_models_and_match_a_scale(tmp_path):
     assert [r["model_id"] for r in fam] == ["dl_g0.58", "dl_g0.6", "dl_g0.62"]
     for r, g in zip(fam, (0.58, 0.6, 0.62)):
         assert r["family"] == "dl" and r["vary_g"] == g
-        twin = member_landmarks([x for x in lines if x["model_id"] == f"twin{g}"],
-                                [x for x in crit if x["model_id"] == f"twin{g}"])
-        for n in NAMES:
-            assert r[n] == twin[n] and r[n + "_err"] == twin[n + "_err"] and r[n + "_status"] == twin[n + "_status"], n
-        assert r["first_order_T"] == twin["first_order_T"] and r["first_order_mu"] == twin["first_order_mu"]
+        if g == 0.6:
+            twin = member_landmarks([x for x in lines if x["model_id"] == f"twin{g}"],
+                                    [x for x in crit if x["model_id"] == f"twin{g}"])
+            for n in NAMES:
+                assert r[n] == twin[n] and r[n + "_err"] == twin[n + "_err"] and \
+                    r[n + "_status"] == twin[n + "_status"], n
+            assert r["first_order_T"] == twin["first_order_T"] and r["first_order_mu"] == twin["first_order_mu"]
         assert r["crossover_T_mu0_status"] == "ok" and r["cep_T_status"] == "ok"
         # the scale
         assert r["match_landmark"] == "crossover_T_mu0" and r["match_unit"] == "MeV"
         assert abs(r["crossover_T_mu0_in_unit"] - 150.0) <= max(r["scale"] * r["crossover_T_mu0_err"], 1e-12 * 150)
         assert r["cep_T_in_unit"] == pytest.approx(r["cep_T"] * 150.0 / r["crossover_T_mu0"], rel=1e-15)
-    # the landmarks move with the coupling: a larger g, a hotter crossover (the twins' own numbers)
+    # the landmarks move with the coupling: a larger g, a hotter crossover
     assert fam[0]["crossover_T_mu0"] < fam[1]["crossover_T_mu0"] < fam[2]["crossover_T_mu0"]
     # the landmarks figure draws exactly the table's values (the matched one in E, the others in MeV)
     pytest.importorskip("matplotlib")
