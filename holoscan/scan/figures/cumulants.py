@@ -29,6 +29,8 @@ from .fixed_ratio import (
     INTERP_TEXT,
     Lines,
     along,
+    carries,
+    column,
     dominant_grid,
     draw_line,
     line_ratios,
@@ -57,27 +59,18 @@ class KurtosisFigure:
     caption: str = ""
 
 
-def _col(rows: pd.DataFrame, name: str) -> np.ndarray:
-    return rows[name].to_numpy(float) if name in rows.columns else np.full(len(rows), np.nan)
-
-
 def kurtosis_value(rows: pd.DataFrame) -> np.ndarray:
     """``T^2 chi4/chi2`` of each row (NaN where a column is missing)."""
     with np.errstate(all="ignore"):
-        return _col(rows, "T") ** 2 * _col(rows, "chi4") / _col(rows, "chi2")
+        return column(rows, "T") ** 2 * column(rows, "chi4") / column(rows, "chi2")
 
 
 def kurtosis_bound(rows: pd.DataFrame) -> np.ndarray:
     """Bound on :func:`kurtosis_value` of each row: ``T^2 (chi4_err + |chi4| error_estimate)/|chi2|``
     (first order in the errors; NaN where ``chi4_err`` or ``error_estimate`` is null)."""
     with np.errstate(all="ignore"):
-        return (_col(rows, "T") ** 2 * (np.abs(_col(rows, "chi4_err")) + np.abs(_col(rows, "chi4"))
-                                        * np.abs(_col(rows, "error_estimate"))) / np.abs(_col(rows, "chi2")))
-
-
-def carries(rows: pd.DataFrame, column: str) -> bool:
-    """True when some row has a finite value in ``column``."""
-    return column in rows.columns and bool(np.isfinite(rows[column].to_numpy(float)).any())
+        return (column(rows, "T") ** 2 * (np.abs(column(rows, "chi4_err")) + np.abs(column(rows, "chi4"))
+                                        * np.abs(column(rows, "error_estimate"))) / np.abs(column(rows, "chi2")))
 
 
 def kurtosis_lines(rows: pd.DataFrame, ratios) -> dict:

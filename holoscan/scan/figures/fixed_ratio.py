@@ -161,6 +161,16 @@ class Grid:
     errors: dict
 
 
+def column(rows: pd.DataFrame, name: str) -> np.ndarray:
+    """A column of ``rows`` as floats (NaN throughout where the table has no such column)."""
+    return rows[name].to_numpy(float) if name in rows.columns else np.full(len(rows), np.nan)
+
+
+def carries(rows: pd.DataFrame, name: str) -> bool:
+    """True when some row has a finite value in column ``name``."""
+    return bool(np.isfinite(column(rows, name)).any())
+
+
 def dominant_grid(rows: pd.DataFrame, quantities: dict) -> Grid:
     """The grid of one model's points rows with the dominant ok value of each quantity.
 

@@ -24,12 +24,13 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from .cumulants import carries
 from .data import ScanTables, count_text, drawable, grid_text, log_T_axis, model_info, provenance_text
 from .fixed_ratio import (
     INTERP_TEXT,
     Lines,
     along,
+    carries,
+    column,
     dominant_grid,
     draw_line,
     line_ratios,
@@ -58,10 +59,6 @@ class TransportFigure:
     caption: str = ""
 
 
-def _col(rows: pd.DataFrame, name: str) -> np.ndarray:
-    return rows[name].to_numpy(float) if name in rows.columns else np.full(len(rows), np.nan)
-
-
 def transport_values(d: int) -> dict:
     """``{quantity: (value, bound)}`` for :func:`.fixed_ratio.dominant_grid`: ``sigma/T^(d-3)``,
     ``D_charge T`` (``sigma/chi2`` where the table has no ``D_charge`` column) and ``eta/s``; no
@@ -71,15 +68,15 @@ def transport_values(d: int) -> dict:
 
     def sigma_hat(rows):
         with np.errstate(all="ignore"):
-            return _col(rows, "sigma") / _col(rows, "T") ** (d - 3)
+            return column(rows, "sigma") / column(rows, "T") ** (d - 3)
 
     def D_T(rows):
-        D = _col(rows, "D_charge") if "D_charge" in rows.columns else _col(rows, "sigma") / _col(rows, "chi2")
+        D = column(rows, "D_charge") if "D_charge" in rows.columns else column(rows, "sigma") / column(rows, "chi2")
         with np.errstate(all="ignore"):
-            return D * _col(rows, "T")
+            return D * column(rows, "T")
 
     return {"sigma_hat": (sigma_hat, unknown), "D_T": (D_T, unknown),
-            "eta_over_s": (lambda rows: _col(rows, "eta_over_s"), unknown)}
+            "eta_over_s": (lambda rows: column(rows, "eta_over_s"), unknown)}
 
 
 def transport_lines(rows: pd.DataFrame, ratios, d: int) -> dict:
