@@ -204,11 +204,13 @@ class LazyAtlas:
         val, grad = ps.evaluate(x0, x1, patch=p, coeffs=coeffs)
         return val, grad, p
 
-    def taylor(self, x0, x1, order: int, truncate: int = 0) -> np.ndarray:
-        """Taylor coefficients up to ``order`` at the points (see :meth:`.cheb.PatchSet.taylor`)."""
+    def taylor(self, x0, x1, order: int, truncations=(0,)) -> list:
+        """Taylor coefficients up to ``order`` at the points (see :meth:`.cheb.PatchSet.taylor`), one
+        array per entry of ``truncations`` (the last orders dropped; 0 keeps all); the points are
+        located once (which may build cells, so before the patches are taken)."""
+        p = self.locate(x0, x1)
         ps = self.patches
-        return ps.taylor(x0, x1, order, patch=self.locate(x0, x1),
-                         coeffs=ps.truncated(truncate) if truncate else None)
+        return [ps.taylor(x0, x1, order, patch=p, coeffs=ps.truncated(k) if k else None) for k in truncations]
 
     def flags(self, p: np.ndarray) -> np.ndarray:
         f = np.array(self.leaf_flags + [HOLE], dtype=np.int8)

@@ -407,12 +407,11 @@ class BatchSolver:
         (:meth:`.brane_map.BraneMap.rho_derivatives`), and the truncation part of their error
         bounds: DERIV_SAFETY times the change when the atlas drops its last two orders."""
         d, L = D_BOUNDARY, self.model.energy_scale
-        D = self.map.rho_derivatives(C[:, 0], C[:, 1])
+        D, *Dt = self.map.rho_derivatives(C[:, 0], C[:, 1], (0, *CUMULANT_TRUNCATIONS))
         # the change when the atlas drops its last one, two or three orders (the largest): one
         # truncation alone can change a derivative by a coincidentally small amount at a point
         with np.errstate(all="ignore"):
-            dD = np.max([np.abs(D - self.map.rho_derivatives(C[:, 0], C[:, 1], truncate=k)) for k in CUMULANT_TRUNCATIONS],
-                        axis=0)
+            dD = np.max([np.abs(D - t) for t in Dt], axis=0)
         # sourced: derivatives in source units; unsourced: of rho_hat(x), rescaled by T
         unit = (np.full(len(T), L) if self.sourced else T)
         f3, f4 = unit ** (d - 3), unit ** (d - 4)

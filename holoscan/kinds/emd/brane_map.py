@@ -61,25 +61,28 @@ class BraneMap:
         return self.atlas.evaluate(np.atleast_1d(np.asarray(c0, float)), np.atleast_1d(np.asarray(c1, float)),
                                    truncate)
 
-    def rho_derivatives(self, c0, c1, truncate: int = 0) -> np.ndarray:
+    def rho_derivatives(self, c0, c1, truncations=(0,)) -> np.ndarray:
         """The first three derivatives of the charge density along the target's fixed variable,
         exact derivatives of the atlas (orders up to 3 of its patches' polynomials, composed by
-        :mod:`holoscan.numerics.jets`), shape (M, 3). Sourced: ``d^n rho/d mu^n`` at fixed ``T``
-        (source units: ``rho``, ``mu`` in units of the source), n = 1, 2, 3. Unsourced: the
-        derivatives ``R^(n)(x)`` of ``rho_hat = R(x)`` along the ``j = 0`` family (``x = mu/T``), so
-        that ``d^n rho/d mu^n = T^(d-1-n) R^(n)(x)``. ``truncate`` drops the atlas's last orders."""
+        :mod:`holoscan.numerics.jets`), shape (len(truncations), M, 3): one set per entry of
+        ``truncations`` (the atlas less that many last orders; 0 the atlas itself). Sourced:
+        ``d^n rho/d mu^n`` at fixed ``T`` (source units: ``rho``, ``mu`` in units of the source),
+        n = 1, 2, 3. Unsourced: the derivatives ``R^(n)(x)`` of ``rho_hat = R(x)`` along the ``j = 0``
+        family (``x = mu/T``), so that ``d^n rho/d mu^n = T^(d-1-n) R^(n)(x)``."""
         c0 = np.atleast_1d(np.asarray(c0, float))
         c1 = np.atleast_1d(np.asarray(c1, float))
         N = 3
-        tay = self.atlas.taylor(c0, c1, N, truncate)
-        g1, g2, g4 = (tay[:, k] for k in (0, 1, 3))
         U = jets.variable(c1, 1, N)
-        if self.sourced:
-            F2 = jets.mul(jets.mul(U, g2), jets.exp(g1))                      # mu = u (x/u) T
-            G = jets.mul(jets.mul(U, g4), jets.exp((self.d - 1) * g1))        # rho = u (rho_hat/u) T^(d-1)
-        else:
-            F2, G = jets.mul(U, g2), jets.mul(U, g4)                           # x, rho_hat
-        return jets.curve_derivatives(g1, F2, G)
+        out = []
+        for tay in self.atlas.taylor(c0, c1, N, truncations):
+            g1, g2, g4 = (tay[:, k] for k in (0, 1, 3))
+            if self.sourced:
+                F2 = jets.mul(jets.mul(U, g2), jets.exp(g1))                      # mu = u (x/u) T
+                G = jets.mul(jets.mul(U, g4), jets.exp((self.d - 1) * g1))        # rho = u (rho_hat/u) T^(d-1)
+            else:
+                F2, G = jets.mul(U, g2), jets.mul(U, g4)                           # x, rho_hat
+            out.append(jets.curve_derivatives(g1, F2, G))
+        return np.array(out)
 
     # -- physical quantities ------------------------------------------------------------------------
     def physical(self, c1, g, dg):
