@@ -21,6 +21,11 @@ from dataclasses import replace
 
 from ..result import PointResult, Status
 
+#: the labels given to branches by entropy order where the kind names no phase: one branch, the
+#: highest, those between and the lowest entropy density (names of branches, not of phases)
+UNIQUE, HIGH_ENTROPY, INTERMEDIATE, LOW_ENTROPY = ENTROPY_ORDER_LABELS = (
+    "unique", "high-entropy", "intermediate", "low-entropy")
+
 
 def _labels(results: list[PointResult]) -> dict[int, str]:
     """Labels of the branches with a finite entropy (any status: a branch that is only short of
@@ -30,11 +35,11 @@ def _labels(results: list[PointResult]) -> dict[int, str]:
     if len(named) == len(have):
         return named
     if len(have) == 1:
-        return {id(have[0]): "unique"}
+        return {id(have[0]): UNIQUE}
     order = sorted(have, key=lambda r: -r.s)
-    out = {id(r): "intermediate" for r in order}
-    out[id(order[0])] = "high-entropy"
-    out[id(order[-1])] = "low-entropy"
+    out = {id(r): INTERMEDIATE for r in order}
+    out[id(order[0])] = HIGH_ENTROPY
+    out[id(order[-1])] = LOW_ENTROPY
     return out
 
 

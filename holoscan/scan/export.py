@@ -60,6 +60,7 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 
 from ..errors import InputError
+from ..phases.dominance import ENTROPY_ORDER_LABELS
 from ..thermo import CS2_FLOOR, RHO_FLOOR
 from .finished import read_table, run_metadata, scan_folder
 from .invert import TensorGrid, invert, line_cuts
@@ -79,8 +80,6 @@ DEFAULT_NODES = 50
 MAX_NODES = 2000
 #: relative round-off of a solved value, added to its error estimate as a node's error
 NODE_ROUNDOFF = 1e-14
-#: phase labels that name branches by entropy order (holoscan/phases/dominance.py), not phases
-POSITIONAL_LABELS = ("unique", "high-entropy", "intermediate", "low-entropy")
 #: status column of the epsilon-rho layout from the inversion's status
 STATUS_TEXT = {"ok": "ok", "outside": "outside grid", "unusable": "next to not ok", "change": "phase change",
                "fold": "fold", "unresolved": "unresolved"}
@@ -268,7 +267,7 @@ def export_inverse(results_dir, model_id: str, spec: InverseSpec, unit: str | No
     for n in names:
         values[n] = np.where(usable, values[n], 0.0)
     # branches named by the kind are phases; names by entropy order are not (one label for them)
-    ident = np.where(np.isin(phase, POSITIONAL_LABELS), "", phase)
+    ident = np.where(np.isin(phase, ENTROPY_ORDER_LABELS), "", phase)
     labels = {p: k for k, p in enumerate(sorted(set(ident[usable])))}
     label = np.array([[labels.get(ident[i, j], -1) for j in range(shape[1])] for i in range(shape[0])])
     metastable = np.zeros(shape, bool)
