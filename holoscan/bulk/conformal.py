@@ -128,15 +128,20 @@ class _ShotFailed(RuntimeError):
     pass
 
 
-def _observe(brane: ChargedBrane, kappa_sq: float, Phi1: float, ss: ShootSettings, cnt: Counters) -> dict:
-    shot = shoot(brane, HorizonData(0.0, Phi1), ss)
+def _observe(brane: ChargedBrane, kappa_sq: float, Phi1: float, ss: ShootSettings, cnt: Counters,
+             residual: bool = True) -> dict:
+    """One shot's boundary observables, counted as work; with ``residual=False`` the shot does not
+    enter the row's residual (a shot that only serves chi3, chi4 leaves the equation of state's
+    record unchanged)."""
+    shot = shoot(brane, HorizonData(0.0, Phi1), ss, want_residual=residual)
     cnt.nfev += shot.nfev
     cnt.nsteps += shot.nsteps
     cnt.shots += 1
     if not shot.ok:
         raise _ShotFailed(shot.message)
     obs = brane.boundary_unsourced(shot.y_end, kappa_sq)
-    cnt.residual = max(cnt.residual, shot.residual, obs["frame_mismatch"])
+    if residual:
+        cnt.residual = max(cnt.residual, shot.residual, obs["frame_mismatch"])
     return obs
 
 
@@ -207,18 +212,6 @@ def _scale(vals: dict) -> dict:
             "epsilon": abs(vals["epsilon"]), "P": abs(vals["P"])}
 
 
-def _observe_quiet(brane, kappa_sq, Phi1, ss, cnt, d) -> dict:
-    """One shot's values at T = 1, counted as work but not entering the row's residual (a shot
-    that only serves chi3, chi4 must leave the equation of state's record unchanged)."""
-    shot = shoot(brane, HorizonData(0.0, Phi1), ss, want_residual=False)
-    cnt.nfev += shot.nfev
-    cnt.nsteps += shot.nsteps
-    cnt.shots += 1
-    if not shot.ok:
-        raise _ShotFailed(shot.message)
-    return _unit(brane.boundary_unsourced(shot.y_end, kappa_sq), d)
-
-
 def _scalar_free_rhs(brane: ChargedBrane):
     """The right-hand side of :class:`ChargedBrane` for a batch of states with no scalar profile:
     with ``phi = 0`` and ``V'(0) = f'(0) = 0`` the equations reduce to ``A'' = 0``,
@@ -272,7 +265,7 @@ def _cumulants(brane, kappa_sq, Phi_max, u, h, x, stencil, var_stencil, sd, sd_l
     var_stencil["offset"].update({8: got[4], -8: got[5]})
     var_stencil["readout"].update({8: got[6], -8: got[7]})
     for m in (8, -8):
-        var_stencil["rtol"][m] = _observe_quiet(brane, kappa_sq, (u + m * h) * Phi_max, sd_loose, cnt, d)
+        var_stencil["rtol"][m] = _unit(_observe(brane, kappa_sq, (u + m * h) * Phi_max, sd_loose, cnt, False), d)
 
     def derivs(vals, steps, orders):
         return [fd.symmetric(vals, steps, n, h) for n in orders]
